@@ -1,0 +1,144 @@
+/* kiln build: scan, split and pack in one run, with the options of all three. */
+#include <getopt.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/stage_pack.h"
+#include "../core/stage_record.h"
+#include "cmd.h"
+
+static void help(void)
+{
+    printf("usage: kiln build SOURCE... -o OUTDIR --size WxH --seed N [options]\n\n"
+           "Runs scan, split and pack in one go and writes everything pack writes into OUTDIR\n"
+           "(catalog.csv included).\n\n"
+           "scan options:\n%s\nsplit options:\n%s\npack options:\n%s\n"
+           "  -o, --output DIR     output folder (created; must be empty or a kiln output)\n"
+           "  -j, --jobs N         worker threads (default: online CPUs)\n"
+           "  -q, --quiet          no progress or summary\n"
+           "  -h, --help           this text\n",
+           cli_scan_help, cli_split_help, cli_recipe_help);
+}
+
+static const struct option longopts[] = {
+    {"output", required_argument, NULL, 'o'},   {"jobs", required_argument, NULL, 'j'},
+    {"quiet", no_argument, NULL, 'q'},          {"help", no_argument, NULL, 'h'},
+    {"labels", required_argument, NULL, 0},     {"group-regex", required_argument, NULL, 0},
+    {"follow-links", no_argument, NULL, 0},     {"max-pixels", required_argument, NULL, 0},
+    {"max-side", required_argument, NULL, 0},   {"seed", required_argument, NULL, 0},
+    {"ratios", required_argument, NULL, 0},     {"stratify", no_argument, NULL, 0},
+    {"mode", required_argument, NULL, 0},       {"size", required_argument, NULL, 0},
+    {"fit", required_argument, NULL, 0},        {"filter", required_argument, NULL, 0},
+    {"channels", required_argument, NULL, 0},   {"depth", required_argument, NULL, 0},
+    {"dtype", required_argument, NULL, 0},      {"layout", required_argument, NULL, 0},
+    {"pad-value", required_argument, NULL, 0},  {"background", required_argument, NULL, 0},
+    {"no-dct-scale", no_argument, NULL, 0},     {"no-orient", no_argument, NULL, 0},
+    {NULL, 0, NULL, 0},
+};
+
+int cmd_build(int argc, char **argv)
+{
+    struct kiln_scan_opts so;
+    kiln_scan_opts_defaults(&so);
+    struct kiln_split_params sp;
+    memset(&sp, 0, sizeof sp);
+    struct kiln_pack_opts po;
+    memset(&po, 0, sizeof po);
+    kiln_recipe_defaults(&po.recipe);
+    struct kiln_err err;
+    kiln_err_clear(&err);
+    bool note, quiet = false, seeded = false;
+    kiln_split_parse_ratios("80:10:10", &sp, &note, &err);
+    unsigned jobs = cli_default_jobs();
+    int c, idx;
+    while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
+        switch (c) {
+        case 'o': po.outdir = optarg; break;
+        case 'j':
+            if (cli_parse_jobs(optarg, &jobs))
+                return cli_usage_error("build", "bad --jobs '%s'", optarg);
+            break;
+        case 'q': quiet = true; break;
+        case 'h': help(); return KILN_EXIT_OK;
+        case 0: {
+            const char *name = longopts[idx].name;
+            int r = cli_scan_option(&so, name, optarg);
+            if (r == 0)
+                r = cli_split_option(&sp, name, optarg);
+            if (r == 0)
+                r = cli_recipe_option(&po.recipe, name, optarg);
+            if (r < 0)
+                return KILN_EXIT_USAGE;
+            seeded |= strcmp(name, "seed") == 0;
+            /* The pixel limits are shared by scan and pack. */
+            if (strcmp(name, "max-pixels") == 0 || strcmp(name, "max-side") == 0)
+                cli_recipe_option(&po.recipe, name, optarg);
+            break;
+        }
+        default: return cli_usage_error("build", "unknown option");
+        }
+    }
+    if (!po.outdir)
+        return cli_usage_error("build", "-o OUTDIR is required");
+    if (!seeded)
+        return cli_usage_error("build", "--seed N is required, so the split can be rebuilt");
+    if (optind >= argc)
+        return cli_usage_error("build", "name at least one source folder or archive");
+    if (kiln_recipe_finish(&po.recipe, &err))
+        return cli_usage_error("build", "%s", err.msg);
+    so.jobs = po.jobs = jobs;
+    int nsrc = argc - optind;
+    char **sources = calloc((size_t)nsrc, sizeof *sources);
+    for (int i = 0; sources && i < nsrc; i++) {
+        sources[i] = strdup(argv[optind + i]);
+        size_t len = sources[i] ? strlen(sources[i]) : 0;
+        while (len > 1 && sources[i][len - 1] == '/')
+            sources[i][--len] = '\0';
+    }
+    struct cli_progress prog;
+    cli_progress_start(&prog, "scan", quiet);
+    so.progress = cli_progress_update;
+    so.progress_ctx = &prog;
+    struct kiln_catalog cat;
+    kiln_catalog_init(&cat);
+    struct kiln_scan_report srep;
+    struct kiln_units units;
+    memset(&units, 0, sizeof units);
+    struct kiln_split_report sprep;
+    json_t *rec = json_object();
+    int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, &so, &cat, &srep, &err);
+    cli_progress_done(&prog);
+    if (!rc) {
+        json_object_set_new(rec, "scan", kiln_scan_record((const char *const *)sources,
+                                                          (size_t)nsrc, &so, &srep, &cat));
+        if (!quiet)
+            cli_print_scan_summary(stdout, &cat, &srep);
+        rc = kiln_units_build(&cat, NULL, &units, &err);
+    }
+    if (!rc)
+        rc = kiln_split_assign(&cat, &units, &sp, &sprep, &err);
+    if (!rc) {
+        json_object_set_new(rec, "split", kiln_split_record(&sp, &units, &sprep));
+        po.catalog_record = rec;
+        cli_progress_start(&prog, "pack", quiet);
+        po.progress = cli_progress_update;
+        po.progress_ctx = &prog;
+        struct kiln_pack_report prep;
+        rc = kiln_stage_pack(&cat, &po, &prep, &err);
+        cli_progress_done(&prog);
+        if (!rc && !quiet)
+            cli_print_pack_summary(stdout, po.outdir, &po.recipe, &prep, cli_elapsed(&prog));
+    }
+    int exit_code = KILN_EXIT_OK;
+    if (rc) {
+        cli_error("%s", err.msg);
+        exit_code = cli_exit_for(rc);
+    }
+    json_decref(rec);
+    kiln_units_free(&units);
+    kiln_catalog_free(&cat);
+    for (int i = 0; sources && i < nsrc; i++)
+        free(sources[i]);
+    free(sources);
+    return exit_code;
+}

@@ -1,0 +1,87 @@
+/* The command-line layer: one file per subcommand, each exporting cmd_<name>() whose return
+ * value is the process exit status. Only this layer prints or picks exit codes.
+ *
+ * Adding a subcommand:
+ *   1. Write cmd/<name>.c with int cmd_<name>(int argc, char **argv); argv[0] is the name.
+ *   2. Parse options with getopt_long; every subcommand takes --help, --quiet and, when it
+ *      does parallel work, --jobs N. Share option parsing through the cli_* helpers below.
+ *   3. Call core/ and formats/ only through their headers; print messages with cli_error or
+ *      cli_warn and return one of the KILN_EXIT_* codes (docs/cli.md lists them).
+ *   4. Add the command to the table in cmd/kiln.c, to CMakeLists.txt, and to docs/cli.md.
+ *   5. Add tests/cli/<name>_*.sh cases. */
+#ifndef KILN_CMD_H
+#define KILN_CMD_H
+
+#include <stdbool.h>
+#include <stdio.h>
+#include <time.h>
+
+#include "../core/err.h"
+#include "../core/recipe.h"
+#include "../core/stage_scan.h"
+#include "../core/split.h"
+
+/* Exit codes, pinned (docs/cli.md). */
+enum {
+    KILN_EXIT_OK = 0,
+    KILN_EXIT_FAILURE = 1,  /* the run failed: I/O, memory, or a bug */
+    KILN_EXIT_USAGE = 2,    /* bad command line */
+    KILN_EXIT_INPUT = 3,    /* bad input: catalogue, manifest, no usable image, --strict rows */
+    KILN_EXIT_DAMAGED = 4,  /* verify: an output differs from its recorded checksum */
+    KILN_EXIT_DRIFT = 5,    /* verify/reproduce: a source file is missing or changed */
+    KILN_EXIT_LEAK = 6,     /* audit: something spans two splits */
+    KILN_EXIT_DIFFERS = 7,  /* reproduce: rebuilt outputs are not byte-identical */
+};
+
+int cmd_scan(int argc, char **argv);
+int cmd_split(int argc, char **argv);
+int cmd_pack(int argc, char **argv);
+int cmd_build(int argc, char **argv);
+int cmd_verify(int argc, char **argv);
+int cmd_inspect(int argc, char **argv);
+
+/* "kiln: error: <msg>" / "kiln: warning: <msg>" on stderr. */
+void cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+void cli_warn(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
+/* Exit code for an error code returned by core/ or formats/. */
+int cli_exit_for(int code);
+/* Reports a usage error and returns KILN_EXIT_USAGE. */
+int cli_usage_error(const char *cmd, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+
+/* Online CPUs, at least 1. */
+unsigned cli_default_jobs(void);
+int cli_parse_jobs(const char *text, unsigned *jobs);
+
+/* Progress on stderr, only when it is a terminal and --quiet is off. */
+struct cli_progress {
+    const char *what;
+    bool on;
+    struct timespec start, last;
+};
+void cli_progress_start(struct cli_progress *p, const char *what, bool quiet);
+void cli_progress_update(void *ctx, const struct kiln_progress *p);
+void cli_progress_done(struct cli_progress *p);
+double cli_elapsed(const struct cli_progress *p);
+
+/* Shared option handlers: return 1 when the option belongs to the group (and was applied),
+ * 0 when it does not, or -1 after printing an error. */
+int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg);
+int cli_split_option(struct kiln_split_params *p, const char *name, const char *arg);
+int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg);
+
+/* Help text of each option group, shared by the commands that take it. */
+extern const char cli_scan_help[], cli_split_help[], cli_recipe_help[];
+
+/* Prints the scan summary table (statuses, skipped files) to f. */
+void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
+                            const struct kiln_scan_report *rep);
+
+/* Prints what pack wrote: records per split, training statistics, where the outputs are. */
+struct kiln_pack_report;
+void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recipe *r,
+                            const struct kiln_pack_report *rep, double seconds);
+
+/* The path of the JSON record that sits beside a catalogue ("x.csv" -> "x.json"); malloc'ed. */
+char *cli_catalog_record_path(const char *catalog_csv);
+
+#endif

@@ -1,0 +1,114 @@
+/* kiln inspect: print a .kten file's header, arrays, class map and statistics. */
+#include <getopt.h>
+#include <inttypes.h>
+#include <jansson.h>
+#include <string.h>
+
+#include "../formats/kten.h"
+#include "../formats/manifest.h"
+#include "cmd.h"
+
+static void help(void)
+{
+    printf("usage: kiln inspect FILE.kten [options]\n\n"
+           "Prints the header, the array table (name, type, shape, offset, length, SHA-256),\n"
+           "the class map and the statistics stored in the metadata block.\n\n"
+           "options:\n"
+           "  --json               print the metadata block as JSON instead\n"
+           "  -h, --help           this text\n");
+}
+
+static void print_stats(const json_t *st, const char *title)
+{
+    const json_t *ch = json_object_get(st, "channels");
+    if (!json_is_array(ch))
+        return;
+    printf("%s (%s, %s):\n", title, kiln_json_str(st, "scale") ? kiln_json_str(st, "scale") : "?",
+           json_is_true(json_object_get(st, "used_for_normalisation")) ? "used for normalisation"
+                                                                        : "not used");
+    size_t i;
+    const json_t *c;
+    json_array_foreach(ch, i, c)
+    {
+        printf("  channel %zu: mean %.6f std %.6f (unit scale: mean %.6f std %.6f) min %lld max "
+               "%lld\n",
+               i, json_real_value(json_object_get(c, "mean")),
+               json_real_value(json_object_get(c, "std")),
+               json_real_value(json_object_get(c, "mean_unit")),
+               json_real_value(json_object_get(c, "std_unit")),
+               (long long)json_integer_value(json_object_get(c, "min")),
+               (long long)json_integer_value(json_object_get(c, "max")));
+    }
+}
+
+int cmd_inspect(int argc, char **argv)
+{
+    static const struct option longopts[] = {
+        {"json", no_argument, NULL, 'J'}, {"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0}};
+    bool as_json = false;
+    int c;
+    while ((c = getopt_long(argc, argv, "h", longopts, NULL)) != -1) {
+        switch (c) {
+        case 'J': as_json = true; break;
+        case 'h': help(); return KILN_EXIT_OK;
+        default: return cli_usage_error("inspect", "unknown option");
+        }
+    }
+    if (optind + 1 != argc)
+        return cli_usage_error("inspect", "name exactly one .kten file");
+    const char *path = argv[optind];
+    struct kiln_kten_info info;
+    struct kiln_err err;
+    int rc = kiln_kten_open(path, &info, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        return KILN_EXIT_INPUT;
+    }
+    json_error_t je;
+    json_t *meta = json_loads(info.metadata, 0, &je);
+    if (as_json) {
+        fputs(info.metadata, stdout);
+        fputc('\n', stdout);
+    } else {
+        char hex[KILN_SHA256_HEX];
+        printf("%s: kiln tensor file version %u, %" PRIu64 " bytes\n", path, info.version,
+               info.file_size);
+        printf("arrays:\n");
+        for (size_t i = 0; i < info.narrays; i++) {
+            const struct kiln_kten_array *a = &info.arrays[i];
+            char shape[128] = "";
+            size_t used = 0;
+            for (unsigned d = 0; d < a->rank; d++)
+                used += (size_t)snprintf(shape + used, sizeof shape - used, "%s%" PRIu64,
+                                         d ? ", " : "", a->dims[d]);
+            kiln_sha256_hex(a->sha256, hex);
+            printf("  %-8s %-4s [%s] at %" PRIu64 ", %" PRIu64 " bytes, sha256 %s\n", a->name,
+                   kiln_dtype_name(a->dtype), shape, a->offset, a->length, hex);
+        }
+        kiln_sha256_hex(info.meta_sha256, hex);
+        printf("metadata: %" PRIu64 " bytes at %" PRIu64 ", sha256 %s\n", info.meta_length,
+               info.meta_offset, hex);
+        if (!meta) {
+            cli_warn("metadata block is not valid JSON: %s", je.text);
+        } else {
+            printf("split %s, layout %s, dtype %s, recipe %s\n",
+                   kiln_json_str(meta, "split") ? kiln_json_str(meta, "split") : "?",
+                   kiln_json_str(meta, "layout") ? kiln_json_str(meta, "layout") : "?",
+                   kiln_json_str(meta, "dtype") ? kiln_json_str(meta, "dtype") : "?",
+                   kiln_json_str(meta, "recipe_sha256") ? kiln_json_str(meta, "recipe_sha256")
+                                                        : "?");
+            const json_t *classes = json_object_get(meta, "classes");
+            size_t i;
+            const json_t *v;
+            printf("classes:");
+            json_array_foreach(classes, i, v) printf(" %zu=%s", i, json_string_value(v));
+            printf("\n");
+            print_stats(json_object_get(meta, "statistics"), "statistics of this split");
+            if (json_object_get(meta, "training_statistics"))
+                print_stats(json_object_get(meta, "training_statistics"), "training statistics");
+        }
+    }
+    json_decref(meta);
+    kiln_kten_info_free(&info);
+    return KILN_EXIT_OK;
+}

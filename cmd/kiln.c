@@ -1,0 +1,379 @@
+/* kiln's entry point: the command table, global options, and the conventions every command
+ * shares (messages, exit codes, progress, option groups). */
+#include <errno.h>
+#include <getopt.h>
+#include <stdarg.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "../core/recipe.h"
+#include "../core/stage_pack.h"
+#include "../core/version.h"
+#include "cmd.h"
+
+static const struct {
+    const char *name;
+    int (*fn)(int, char **);
+    const char *summary;
+} commands[] = {
+    {"scan", cmd_scan, "catalogue the images in folders and archives (catalog.csv)"},
+    {"split", cmd_split, "assign train/validation/test splits to a catalogue"},
+    {"pack", cmd_pack, "decode, resize and write tensor files, statistics and a manifest"},
+    {"build", cmd_build, "scan, split and pack in one run"},
+    {"verify", cmd_verify, "re-check every checksum of a packed output folder"},
+    {"inspect", cmd_inspect, "show the header, arrays and statistics of a .kten file"},
+};
+
+#define NCOMMANDS (sizeof commands / sizeof commands[0])
+
+static void usage(FILE *f)
+{
+    fprintf(f, "usage: kiln <command> [options]\n\n"
+               "Turns folders and archives of lab images into reproducible, leakage-free tensor\n"
+               "data sets.\n\ncommands:\n");
+    for (size_t i = 0; i < NCOMMANDS; i++)
+        fprintf(f, "  %-9s %s\n", commands[i].name, commands[i].summary);
+    fprintf(f, "\nRun 'kiln <command> --help' for a command's options; 'kiln --version' for the "
+               "version\nand the libraries in use.\n");
+}
+
+int main(int argc, char **argv)
+{
+    if (argc < 2) {
+        usage(stderr);
+        return KILN_EXIT_USAGE;
+    }
+    if (strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0 ||
+        strcmp(argv[1], "help") == 0) {
+        usage(stdout);
+        return KILN_EXIT_OK;
+    }
+    if (strcmp(argv[1], "--version") == 0) {
+        printf("kiln %s\n", KILN_VERSION);
+        return fflush(stdout) == 0 ? KILN_EXIT_OK : KILN_EXIT_FAILURE;
+    }
+    for (size_t i = 0; i < NCOMMANDS; i++)
+        if (strcmp(argv[1], commands[i].name) == 0) {
+            int rc = commands[i].fn(argc - 1, argv + 1);
+            /* A full disk must not end in a silent success. */
+            if (fflush(stdout) != 0 || ferror(stdout)) {
+                cli_error("cannot write to standard output: %s", strerror(errno));
+                return KILN_EXIT_FAILURE;
+            }
+            return rc;
+        }
+    cli_error("'%s' is not a kiln command", argv[1]);
+    usage(stderr);
+    return KILN_EXIT_USAGE;
+}
+
+/* ---- messages and exit codes -------------------------------------------------------------- */
+
+void cli_error(const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fputs("kiln: error: ", stderr);
+    vfprintf(stderr, fmt, ap);
+    fputc('\n', stderr);
+    va_end(ap);
+}
+
+void cli_warn(const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fputs("kiln: warning: ", stderr);
+    vfprintf(stderr, fmt, ap);
+    fputc('\n', stderr);
+    va_end(ap);
+}
+
+int cli_usage_error(const char *cmd, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fputs("kiln: error: ", stderr);
+    vfprintf(stderr, fmt, ap);
+    fprintf(stderr, "\n(see 'kiln %s --help')\n", cmd);
+    va_end(ap);
+    return KILN_EXIT_USAGE;
+}
+
+int cli_exit_for(int code)
+{
+    switch (code) {
+    case KILN_OK: return KILN_EXIT_OK;
+    case KILN_EINVAL:
+    case KILN_ECORRUPT:
+    case KILN_ETRUNCATED:
+    case KILN_EUNSUPPORTED:
+    case KILN_ETOOLARGE: return KILN_EXIT_INPUT;
+    case KILN_EMISMATCH: return KILN_EXIT_DRIFT;
+    default: return KILN_EXIT_FAILURE;
+    }
+}
+
+unsigned cli_default_jobs(void)
+{
+    long n = sysconf(_SC_NPROCESSORS_ONLN);
+    return n > 0 ? (unsigned)n : 1u;
+}
+
+int cli_parse_jobs(const char *text, unsigned *jobs)
+{
+    char *end;
+    errno = 0;
+    long v = strtol(text, &end, 10);
+    if (*end || errno || v < 1 || v > 1024)
+        return -1;
+    *jobs = (unsigned)v;
+    return 0;
+}
+
+/* ---- progress ----------------------------------------------------------------------------- */
+
+static double since(const struct timespec *a, const struct timespec *b)
+{
+    return (double)(b->tv_sec - a->tv_sec) + (double)(b->tv_nsec - a->tv_nsec) / 1e9;
+}
+
+void cli_progress_start(struct cli_progress *p, const char *what, bool quiet)
+{
+    p->what = what;
+    p->on = !quiet && isatty(STDERR_FILENO);
+    clock_gettime(CLOCK_MONOTONIC, &p->start);
+    p->last = p->start;
+}
+
+double cli_elapsed(const struct cli_progress *p)
+{
+    struct timespec now;
+    clock_gettime(CLOCK_MONOTONIC, &now);
+    return since(&p->start, &now);
+}
+
+void cli_progress_update(void *ctx, const struct kiln_progress *pr)
+{
+    struct cli_progress *p = ctx;
+    if (!p->on)
+        return;
+    struct timespec now;
+    clock_gettime(CLOCK_MONOTONIC, &now);
+    if (since(&p->last, &now) < 0.2 && pr->items != pr->total_items)
+        return;
+    p->last = now;
+    double t = since(&p->start, &now);
+    double rate = t > 0 ? (double)pr->items / t : 0, mbs = t > 0 ? (double)pr->bytes / t / 1e6 : 0;
+    if (pr->total_items && rate > 0)
+        fprintf(stderr, "\r%s: %zu/%zu items, %.0f items/s, %.1f MB/s, about %.0f s left   ",
+                p->what, pr->items, pr->total_items, rate, mbs,
+                (double)(pr->total_items - pr->items) / rate);
+    else
+        fprintf(stderr, "\r%s: %zu items, %.0f items/s, %.1f MB/s   ", p->what, pr->items, rate,
+                mbs);
+}
+
+void cli_progress_done(struct cli_progress *p)
+{
+    if (p->on)
+        fputs("\r\033[K", stderr);
+}
+
+/* ---- option groups ------------------------------------------------------------------------ */
+
+const char cli_scan_help[] =
+    "  --labels RULE        folder (default: first folder level), none, or csv:FILE with\n"
+    "                       columns path,label[,group]\n"
+    "  --group-regex ERE    group key = first capture group of ERE on the relative path;\n"
+    "                       items of one group always share a split\n"
+    "  --follow-links       follow symbolic links (loops are detected and reported)\n"
+    "  --max-pixels N       reject images with more pixels (default 268435456 = 2^28)\n"
+    "  --max-side N         reject images with a longer side (default 65535)\n";
+
+const char cli_split_help[] =
+    "  --seed N             seed of the split (required)\n"
+    "  --ratios A:B[:C]     train:test or train:val:test shares, e.g. 80:10:10, 0.7:0.3\n"
+    "                       (default 80:10:10)\n"
+    "  --stratify           keep class proportions in every split\n"
+    "  --mode MODE          exact (default: sizes as close to the ratios as whole units\n"
+    "                       allow) or stable (a unit's split depends on its own key only)\n";
+
+const char cli_recipe_help[] =
+    "  --size WxH | S       output image size (required)\n"
+    "  --fit MODE           stretch (default), pad (letterbox) or crop (centre crop)\n"
+    "  --filter NAME        nearest, box, bilinear (default), bicubic or lanczos3\n"
+    "  --channels 1|3|4     grey (BT.601 luma), RGB (default) or RGBA\n"
+    "  --depth 8|16         bits per sample of the records (default 8)\n"
+    "  --dtype u8|u16|f32   output type; f32 is normalised with the training statistics\n"
+    "  --layout nhwc|nchw   array layout (default nhwc)\n"
+    "  --pad-value V[,..]   letterbox fill, 0-255 per channel (default 0)\n"
+    "  --background R,G,B   colour alpha is composited over (default 255,255,255)\n"
+    "  --no-dct-scale       decode JPEG at full size even when the target is small\n"
+    "  --no-orient          ignore EXIF orientation\n";
+
+int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg)
+{
+    if (strcmp(name, "labels") == 0) {
+        if (strcmp(arg, "folder") == 0)
+            o->labels = KILN_LABELS_FOLDER;
+        else if (strcmp(arg, "none") == 0)
+            o->labels = KILN_LABELS_NONE;
+        else if (strncmp(arg, "csv:", 4) == 0 && arg[4]) {
+            o->labels = KILN_LABELS_CSV;
+            o->labels_csv = arg + 4;
+        } else {
+            cli_error("bad --labels '%s': use folder, none or csv:FILE", arg);
+            return -1;
+        }
+        return 1;
+    }
+    if (strcmp(name, "group-regex") == 0) {
+        o->group_regex = arg;
+        return 1;
+    }
+    if (strcmp(name, "follow-links") == 0) {
+        o->walk.follow_links = true;
+        return 1;
+    }
+    if (strcmp(name, "max-pixels") == 0 || strcmp(name, "max-side") == 0) {
+        struct kiln_recipe tmp;
+        struct kiln_err e;
+        kiln_recipe_defaults(&tmp);
+        if (kiln_recipe_set(&tmp, name, arg, &e)) {
+            cli_error("%s", e.msg);
+            return -1;
+        }
+        if (name[4] == 'p')
+            o->limits.max_pixels = tmp.max_pixels;
+        else
+            o->limits.max_side = tmp.max_side;
+        return 1;
+    }
+    return 0;
+}
+
+int cli_split_option(struct kiln_split_params *p, const char *name, const char *arg)
+{
+    struct kiln_err e;
+    if (strcmp(name, "seed") == 0) {
+        char *end;
+        errno = 0;
+        unsigned long long v = strtoull(arg, &end, 10);
+        if (!*arg || *end || errno || arg[0] == '-') {
+            cli_error("bad --seed '%s': use a whole number from 0 to 2^64-1", arg);
+            return -1;
+        }
+        p->seed = v;
+        return 1;
+    }
+    if (strcmp(name, "ratios") == 0) {
+        bool note;
+        if (kiln_split_parse_ratios(arg, p, &note, &e)) {
+            cli_error("%s", e.msg);
+            return -1;
+        }
+        if (note)
+            cli_warn("--ratios %s does not sum to 100; the parts are used as weights", arg);
+        return 1;
+    }
+    if (strcmp(name, "stratify") == 0) {
+        p->stratify = true;
+        return 1;
+    }
+    if (strcmp(name, "mode") == 0) {
+        int m = kiln_split_mode_parse(arg);
+        if (m < 0) {
+            cli_error("bad --mode '%s': use exact or stable", arg);
+            return -1;
+        }
+        p->mode = m;
+        return 1;
+    }
+    return 0;
+}
+
+int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg)
+{
+    static const char *const keys[] = {"size", "fit", "filter", "channels", "depth", "dtype",
+                                       "layout", "pad-value", "background", "max-pixels",
+                                       "max-side"};
+    struct kiln_err e;
+    if (strcmp(name, "no-dct-scale") == 0) {
+        r->dct_scale = false;
+        return 1;
+    }
+    if (strcmp(name, "no-orient") == 0) {
+        r->orient = false;
+        return 1;
+    }
+    for (size_t i = 0; i < sizeof keys / sizeof keys[0]; i++)
+        if (strcmp(name, keys[i]) == 0) {
+            if (kiln_recipe_set(r, name, arg, &e)) {
+                cli_error("%s", e.msg);
+                return -1;
+            }
+            return 1;
+        }
+    return 0;
+}
+
+void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
+                            const struct kiln_scan_report *rep)
+{
+    fprintf(f, "%zu files catalogued (%.1f MB), %zu classes\n", cat->n, (double)rep->bytes / 1e6,
+            cat->nclasses);
+    for (int s = 0; s < KILN_ST_COUNT; s++)
+        if (rep->status[s])
+            fprintf(f, "  %-15s %zu\n", kiln_status_name(s), rep->status[s]);
+    if (rep->hidden || rep->junk)
+        fprintf(f, "skipped without a row: %zu hidden, %zu system files\n", rep->hidden, rep->junk);
+    for (size_t i = 0, shown = 0; i < cat->n && shown < 10; i++) {
+        const struct kiln_item *it = &cat->items[i];
+        if (it->status == KILN_ST_OK)
+            continue;
+        char rel[2048];
+        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        fprintf(f, "  %s: %s/%s: %s\n", kiln_status_name(it->status), it->source, rel, it->reason);
+        shown++;
+    }
+}
+
+char *cli_catalog_record_path(const char *csv)
+{
+    size_t n = strlen(csv);
+    char *s = malloc(n + 6);
+    if (!s)
+        return NULL;
+    memcpy(s, csv, n + 1);
+    if (n >= 4 && strcmp(s + n - 4, ".csv") == 0)
+        s[n - 4] = '\0';
+    strcat(s, ".json");
+    return s;
+}
+
+void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recipe *r,
+                            const struct kiln_pack_report *rep, double seconds)
+{
+    size_t total = 0;
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        if (rep->present[s]) {
+            fprintf(f, "  %-5s %zu records -> %s/%s\n", kiln_split_name(s), rep->records[s],
+                    outdir, kiln_split_files[s]);
+            total += rep->records[s];
+        }
+    const double maxv = r->depth == 16 ? 65535.0 : 255.0;
+    fprintf(f, "training statistics, [0,1] scale (population std):\n");
+    for (unsigned c = 0; c < r->channels; c++) {
+        struct kiln_stats_summary u;
+        struct kiln_err e;
+        if (kiln_stats_summarize(&rep->stats[KILN_SPLIT_TRAIN].ch[c], maxv, &u, &e) == 0)
+            fprintf(f, "  channel %u: mean %.6f  std %.6f\n", c, u.mean, u.std_pop);
+    }
+    if (rep->skipped)
+        fprintf(f, "%zu catalogue rows not packed (see manifest.json \"skipped\")\n",
+                rep->skipped);
+    fprintf(f, "%zu records in %.2f s (%.0f images/s); manifest: %s/manifest.json\n", total,
+            seconds, seconds > 0 ? (double)total / seconds : 0.0, outdir);
+}

@@ -1,0 +1,144 @@
+/* kiln scan: catalogue every candidate file of the sources into catalog.csv (and the record of
+ * how, catalog.json beside it). */
+#include <getopt.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/stage_record.h"
+#include "../formats/catalog_csv.h"
+#include "../formats/manifest.h"
+#include "cmd.h"
+
+static void help(void)
+{
+    printf("usage: kiln scan SOURCE... -o catalog.csv [options]\n\n"
+           "Walks folders (recursively) and archives (zip, tar, tar.gz/bz2/xz/zst, 7z, ...; read\n"
+           "in place) and writes one row per candidate file: location, size, SHA-256, format,\n"
+           "size in pixels, channels, depth, orientation, label, group, status and reason, and\n"
+           "the pixel digest and difference hash used to find duplicates. Files that cannot be\n"
+           "used are rows with a status, never dropped. Hidden and system files are counted.\n\n"
+           "options:\n"
+           "  -o, --output FILE    catalogue to write (required); FILE.json gets the record\n"
+           "%s"
+           "  --strict             exit with status 3 if any row is not ok\n"
+           "  -j, --jobs N         worker threads (default: online CPUs)\n"
+           "  -q, --quiet          no progress or summary\n"
+           "  -h, --help           this text\n",
+           cli_scan_help);
+}
+
+static const struct option longopts[] = {
+    {"output", required_argument, NULL, 'o'},  {"jobs", required_argument, NULL, 'j'},
+    {"quiet", no_argument, NULL, 'q'},         {"help", no_argument, NULL, 'h'},
+    {"strict", no_argument, NULL, 's'},        {"labels", required_argument, NULL, 0},
+    {"group-regex", required_argument, NULL, 0}, {"follow-links", no_argument, NULL, 0},
+    {"max-pixels", required_argument, NULL, 0}, {"max-side", required_argument, NULL, 0},
+    {NULL, 0, NULL, 0},
+};
+
+/* Strips trailing slashes so "data/" and "data" name the same source. */
+static char **normalised_sources(int n, char **argv)
+{
+    char **s = calloc((size_t)n + 1, sizeof *s);
+    for (int i = 0; s && i < n; i++) {
+        s[i] = strdup(argv[i]);
+        if (!s[i])
+            return NULL;
+        size_t len = strlen(s[i]);
+        while (len > 1 && s[i][len - 1] == '/')
+            s[i][--len] = '\0';
+    }
+    return s;
+}
+
+int cmd_scan(int argc, char **argv)
+{
+    struct kiln_scan_opts o;
+    kiln_scan_opts_defaults(&o);
+    o.jobs = cli_default_jobs();
+    const char *output = NULL;
+    bool quiet = false, strict = false;
+    int c, idx;
+    while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
+        switch (c) {
+        case 'o': output = optarg; break;
+        case 'j':
+            if (cli_parse_jobs(optarg, &o.jobs))
+                return cli_usage_error("scan", "bad --jobs '%s'", optarg);
+            break;
+        case 'q': quiet = true; break;
+        case 's': strict = true; break;
+        case 'h': help(); return KILN_EXIT_OK;
+        case 0:
+            if (cli_scan_option(&o, longopts[idx].name, optarg) < 0)
+                return KILN_EXIT_USAGE;
+            break;
+        default: return cli_usage_error("scan", "unknown option");
+        }
+    }
+    if (!output)
+        return cli_usage_error("scan", "-o catalog.csv is required");
+    if (optind >= argc)
+        return cli_usage_error("scan", "name at least one source folder or archive");
+    int nsrc = argc - optind;
+    char **sources = normalised_sources(nsrc, argv + optind);
+    if (!sources) {
+        cli_error("out of memory");
+        return KILN_EXIT_FAILURE;
+    }
+    struct cli_progress prog;
+    cli_progress_start(&prog, "scan", quiet);
+    o.progress = cli_progress_update;
+    o.progress_ctx = &prog;
+    struct kiln_catalog cat;
+    kiln_catalog_init(&cat);
+    struct kiln_scan_report rep;
+    struct kiln_err err;
+    kiln_err_clear(&err);
+    int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, &o, &cat, &rep, &err);
+    cli_progress_done(&prog);
+    int exit_code = KILN_EXIT_OK;
+    if (rc) {
+        cli_error("%s", err.msg);
+        exit_code = cli_exit_for(rc);
+    } else {
+        rc = kiln_catalog_csv_save(output, &cat, &err);
+        char *rec_path = cli_catalog_record_path(output);
+        json_t *rec = json_object();
+        json_object_set_new(rec, "catalog", json_string(output));
+        json_object_set_new(rec, "scan",
+                            kiln_scan_record((const char *const *)sources, (size_t)nsrc, &o,
+                                             &rep, &cat));
+        json_object_set_new(rec, "split", json_null());
+        if (!rc)
+            rc = rec_path ? kiln_json_save(rec_path, rec, &err)
+                          : kiln_err_set(&err, KILN_ENOMEM, "out of memory");
+        json_decref(rec);
+        free(rec_path);
+        if (rc) {
+            cli_error("%s", err.msg);
+            exit_code = cli_exit_for(rc) == KILN_EXIT_INPUT ? KILN_EXIT_FAILURE : cli_exit_for(rc);
+        } else {
+            if (!quiet) {
+                cli_print_scan_summary(stdout, &cat, &rep);
+                if (rep.csv_rows_unused)
+                    printf("labels CSV: %zu of %zu rows match no file (first: %s)\n",
+                           rep.csv_rows_unused, rep.csv_rows, rep.first_unused_csv_row);
+                if (o.group_regex)
+                    printf("group rule matched %zu of %zu usable files\n", rep.group_matched,
+                           rep.group_matched + rep.group_unmatched);
+                printf("catalogue written to %s in %.2f s\n", output, cli_elapsed(&prog));
+            }
+            if (strict && rep.status[KILN_ST_OK] != cat.n) {
+                cli_error("%zu of %zu rows are not ok (--strict)", cat.n - rep.status[KILN_ST_OK],
+                          cat.n);
+                exit_code = KILN_EXIT_INPUT;
+            }
+        }
+    }
+    kiln_catalog_free(&cat);
+    for (int i = 0; i < nsrc; i++)
+        free(sources[i]);
+    free(sources);
+    return exit_code;
+}

@@ -1,0 +1,131 @@
+/* kiln split: assign every usable catalogue row to train, validation or test (docs/split.md)
+ * and write the catalogue back with its unit and split columns. */
+#include <getopt.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/stage_record.h"
+#include "../formats/catalog_csv.h"
+#include "../formats/manifest.h"
+#include "cmd.h"
+
+static void help(void)
+{
+    printf("usage: kiln split catalog.csv --seed N [options]\n\n"
+           "Groups items that must stay together (same group, same file bytes, same decoded\n"
+           "pixels) into units and deals the units to splits by a keyed hash of the seed and\n"
+           "the unit's content, never by paths or row order. Writes the catalogue back (or to\n"
+           "-o) with unit and split columns and records the parameters in catalog.json.\n\n"
+           "options:\n"
+           "%s"
+           "  -o, --output FILE    write the split catalogue here instead of in place\n"
+           "  -q, --quiet          no summary\n"
+           "  -h, --help           this text\n",
+           cli_split_help);
+}
+
+static const struct option longopts[] = {
+    {"output", required_argument, NULL, 'o'}, {"quiet", no_argument, NULL, 'q'},
+    {"help", no_argument, NULL, 'h'},         {"seed", required_argument, NULL, 0},
+    {"ratios", required_argument, NULL, 0},   {"stratify", no_argument, NULL, 0},
+    {"mode", required_argument, NULL, 0},     {NULL, 0, NULL, 0},
+};
+
+int cmd_split(int argc, char **argv)
+{
+    struct kiln_split_params p;
+    memset(&p, 0, sizeof p);
+    bool seeded = false, quiet = false, note;
+    struct kiln_err err;
+    kiln_split_parse_ratios("80:10:10", &p, &note, &err);
+    const char *output = NULL;
+    int c, idx;
+    while ((c = getopt_long(argc, argv, "o:qh", longopts, &idx)) != -1) {
+        switch (c) {
+        case 'o': output = optarg; break;
+        case 'q': quiet = true; break;
+        case 'h': help(); return KILN_EXIT_OK;
+        case 0:
+            if (cli_split_option(&p, longopts[idx].name, optarg) < 0)
+                return KILN_EXIT_USAGE;
+            seeded |= strcmp(longopts[idx].name, "seed") == 0;
+            break;
+        default: return cli_usage_error("split", "unknown option");
+        }
+    }
+    if (optind + 1 != argc)
+        return cli_usage_error("split", "name exactly one catalogue");
+    if (!seeded)
+        return cli_usage_error("split", "--seed N is required, so the split can be rebuilt");
+    const char *input = argv[optind];
+    if (!output)
+        output = input;
+    struct kiln_catalog cat;
+    kiln_catalog_init(&cat);
+    bool had_split;
+    int rc = kiln_catalog_csv_load(input, &cat, &had_split, &err);
+    if (!rc)
+        rc = kiln_catalog_index_classes(&cat, &err);
+    struct kiln_units units;
+    memset(&units, 0, sizeof units);
+    struct kiln_split_report rep;
+    if (!rc)
+        rc = kiln_units_build(&cat, NULL, &units, &err);
+    if (!rc)
+        rc = kiln_split_assign(&cat, &units, &p, &rep, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        kiln_units_free(&units);
+        kiln_catalog_free(&cat);
+        return cli_exit_for(rc);
+    }
+    char *in_rec = cli_catalog_record_path(input), *out_rec = cli_catalog_record_path(output);
+    json_t *rec = NULL;
+    struct kiln_err lerr;
+    if (in_rec && kiln_json_load(in_rec, &rec, &lerr) != 0) {
+        cli_warn("no scan record beside %s (%s); the manifest will lack scan details", input,
+                 lerr.msg);
+        rec = NULL;
+    }
+    if (!rec)
+        rec = json_object();
+    json_object_set_new(rec, "catalog", json_string(output));
+    json_object_set_new(rec, "split", kiln_split_record(&p, &units, &rep));
+    rc = kiln_catalog_csv_save(output, &cat, &err);
+    if (!rc)
+        rc = out_rec ? kiln_json_save(out_rec, rec, &err) : kiln_err_set(&err, KILN_ENOMEM, "oom");
+    int exit_code = KILN_EXIT_OK;
+    if (rc) {
+        cli_error("%s", err.msg);
+        exit_code = KILN_EXIT_FAILURE;
+    } else if (!quiet) {
+        char ratios[96];
+        kiln_split_format_ratios(&p, ratios, sizeof ratios);
+        printf("%zu units from %zu usable items (seed %llu, ratios %s, %s mode%s)\n", rep.units,
+               rep.items[0] + rep.items[1] + rep.items[2], (unsigned long long)p.seed, ratios,
+               kiln_split_mode_name(p.mode), p.stratify ? ", stratified" : "");
+        for (int s = 0; s < KILN_NSPLITS; s++)
+            if (s != KILN_SPLIT_VAL || p.nparts == 3)
+                printf("  %-5s %zu items in %zu units\n", kiln_split_name(s), rep.items[s],
+                       rep.units_per_split[s]);
+        if (units.merged_bytes || units.merged_pixels || units.merged_groups)
+            printf("kept together: %zu by group, %zu identical files, %zu identical pixels\n",
+                   units.merged_groups, units.merged_bytes, units.merged_pixels);
+        if (rep.mixed_units)
+            cli_warn("%zu units hold items of more than one label", rep.mixed_units);
+        if (rep.oversized_units)
+            cli_warn("%zu units are larger than their split's target share", rep.oversized_units);
+        for (int s = 0; s < KILN_NSPLITS; s++)
+            if (p.ratio[s] == 0 && (s != KILN_SPLIT_VAL || p.nparts == 3))
+                cli_warn("the %s split has a zero share", kiln_split_name(s));
+        if (had_split)
+            printf("(the catalogue's previous split was replaced)\n");
+        printf("split catalogue written to %s\n", output);
+    }
+    json_decref(rec);
+    free(in_rec);
+    free(out_rec);
+    kiln_units_free(&units);
+    kiln_catalog_free(&cat);
+    return exit_code;
+}

@@ -1,0 +1,97 @@
+/* The catalogue: one row per candidate file found by scan, extended by split, read by pack.
+ * Rows live in one array and their strings in one arena, so an item costs a few hundred bytes. */
+#ifndef KILN_CATALOG_H
+#define KILN_CATALOG_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#include "arena.h"
+#include "err.h"
+#include "sha256.h"
+
+/* Row status vocabulary. The names (kiln_status_name) are what catalog.csv holds and what
+ * docs/statuses.md documents; the numbers are internal. */
+enum kiln_status {
+    KILN_ST_OK = 0,
+    KILN_ST_EMPTY,          /* zero-byte file */
+    KILN_ST_UNREADABLE,     /* the OS refused to open or read it */
+    KILN_ST_NOT_IMAGE,      /* content matches no known image format */
+    KILN_ST_UNSUPPORTED,    /* a known image format or feature kiln does not decode */
+    KILN_ST_CORRUPT,        /* malformed image data */
+    KILN_ST_TRUNCATED,      /* image data ends early */
+    KILN_ST_TOO_LARGE,      /* header claims more pixels or a larger side than the limits */
+    KILN_ST_SYMLINK,        /* symbolic link, not followed */
+    KILN_ST_NESTED_ARCHIVE, /* an archive inside an archive, not descended */
+    KILN_ST_ENCRYPTED,      /* encrypted archive member */
+    KILN_ST_ARCHIVE_LINK,   /* hard or symbolic link stored in an archive */
+    KILN_ST_SPECIAL,        /* device, FIFO, socket or other non-regular entry */
+    KILN_ST_UNLABELLED,     /* the label rule gives this file no label */
+    KILN_ST_LINK_LOOP,      /* a followed link leads back into a folder already being walked */
+    KILN_ST_COUNT
+};
+
+const char *kiln_status_name(int status);
+/* Returns the status for a name, or -1. */
+int kiln_status_parse(const char *name);
+
+#define KILN_SPLIT_NONE (-1)
+enum kiln_split_id { KILN_SPLIT_TRAIN = 0, KILN_SPLIT_VAL = 1, KILN_SPLIT_TEST = 2, KILN_NSPLITS = 3 };
+const char *kiln_split_name(int split); /* "train", "val", "test", "" for none */
+int kiln_split_parse(const char *name);  /* -1 for "" or unknown */
+
+struct kiln_item {
+    const char *source; /* source root as given on the command line */
+    const char *path;   /* relative path under the source (of the archive, for members) */
+    const char *member; /* member path inside the archive, "" for plain files */
+    const char *format; /* decoder name ("png", "jpeg", ...) or "" */
+    const char *label;  /* "" when none */
+    const char *group;  /* "" when none */
+    const char *reason; /* human explanation when status != ok, else "" */
+    uint64_t size;
+    uint64_t phash; /* 64-bit difference hash of the oriented image (docs/split.md) */
+    uint64_t unit_key; /* set by split: the keyed hash of the item's unit */
+    uint8_t sha256[KILN_SHA256_LEN];       /* of the file bytes */
+    uint8_t pixel_sha256[KILN_SHA256_LEN]; /* of the canonical decoded pixels (docs/split.md) */
+    uint32_t width, height; /* oriented size */
+    int32_t class_index;    /* position of label in the sorted class list, -1 = none */
+    uint16_t pages;
+    uint8_t channels, depth; /* as decoded: channels 1-4, depth 8 or 16 */
+    uint8_t stored_depth;    /* bits per sample in the file */
+    uint8_t orientation;     /* EXIF orientation as stored (1-8) */
+    uint8_t status;
+    uint8_t has_pixels; /* phash and pixel_sha256 are valid */
+    int8_t split;       /* KILN_SPLIT_NONE until split */
+};
+
+struct kiln_catalog {
+    struct kiln_item *items;
+    size_t n, cap;
+    char **classes; /* byte-wise sorted distinct labels of usable items; strings in the arena */
+    size_t nclasses;
+    struct kiln_arena strings;
+};
+
+void kiln_catalog_init(struct kiln_catalog *cat);
+void kiln_catalog_free(struct kiln_catalog *cat);
+
+/* Appends a copy of *item; its strings (NULL allowed, meaning "") are copied into the arena.
+ * Returns KILN_OK or KILN_ENOMEM. */
+int kiln_catalog_add(struct kiln_catalog *cat, const struct kiln_item *item, struct kiln_err *err);
+
+/* Sorts rows by (source, path, member) in byte order, so the catalogue never depends on the
+ * order in which a file system or an archive listed its entries. */
+void kiln_catalog_sort(struct kiln_catalog *cat);
+
+/* Rebuilds classes from the labels of ok items (byte-wise sorted, distinct) and sets every
+ * item's class_index (-1 for no label or non-ok rows). */
+int kiln_catalog_index_classes(struct kiln_catalog *cat, struct kiln_err *err);
+
+/* Counts items with each status into counts[KILN_ST_COUNT]. */
+void kiln_catalog_count_status(const struct kiln_catalog *cat, size_t counts[KILN_ST_COUNT]);
+
+/* Byte order comparison of two items' locations (source, path, member). */
+int kiln_item_location_cmp(const struct kiln_item *a, const struct kiln_item *b);
+
+#endif

@@ -1,0 +1,88 @@
+/* Separable fixed-point resampling with antialiasing and the fit rules (stretch, pad, crop).
+ * docs/resize.md gives every formula; the per-pixel path uses integers only, so results are
+ * identical on every machine, compiler and thread count. */
+#ifndef KILN_RESIZE_H
+#define KILN_RESIZE_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "err.h"
+#include "image.h"
+
+enum kiln_filter {
+    KILN_FILTER_NEAREST = 0,
+    KILN_FILTER_BOX,
+    KILN_FILTER_BILINEAR,
+    KILN_FILTER_BICUBIC, /* Keys cubic convolution, a = -0.5 */
+    KILN_FILTER_LANCZOS3,
+    KILN_FILTER_COUNT
+};
+
+const char *kiln_filter_name(int filter);
+int kiln_filter_parse(const char *name); /* -1 when unknown */
+
+/* Fixed-point precision of the quantised coefficients: each output row's coefficients are
+ * integers summing to exactly 1 << KILN_RESIZE_BITS. */
+#define KILN_RESIZE_BITS 22
+
+/* Evaluates a filter kernel at x (in input-pixel units of the unscaled kernel). Exposed so the
+ * tests can check the kernels against their published definitions. */
+double kiln_filter_kernel(int filter, double x);
+double kiln_filter_support(int filter);
+
+/* A rectangle of the source image, in whole pixels. */
+struct kiln_box {
+    uint32_t x, y, w, h;
+};
+
+/* Coefficients for one axis: output i reads count[i] inputs from first[i] with weights
+ * coef[i * ksize ...]. */
+struct kiln_resize_axis {
+    uint32_t in_size, out_size, ksize;
+    uint32_t *first, *count;
+    int32_t *coef;
+};
+
+/* Builds the coefficient table mapping [box0, box0 + box_size) of an in_size axis onto out_size
+ * outputs. Windows may reach outside the box (they are cut at the image edge and renormalised).
+ * Returns KILN_OK, KILN_EINVAL or KILN_ENOMEM. */
+int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_t box0,
+                          uint32_t box_size, uint32_t out_size, int filter, struct kiln_err *err);
+void kiln_resize_axis_free(struct kiln_resize_axis *ax);
+
+/* Per-worker resampler: caches the last coefficient tables (consecutive images often share a
+ * size) and scratch buffers. Not shared between threads. */
+struct kiln_resizer {
+    struct kiln_resize_axis x, y;
+    bool valid;
+    uint32_t key[8]; /* in_w, in_h, box x,y,w,h, filter, (out size is in the axes) */
+    int64_t *acc;
+    size_t acc_cap;
+    struct kiln_image tmp;
+};
+
+void kiln_resizer_init(struct kiln_resizer *r);
+void kiln_resizer_free(struct kiln_resizer *r);
+
+/* Resamples box of in (NULL = whole image) to out_w x out_h with the given filter, horizontal
+ * pass first, into out (reshaped; same channels and depth as in). */
+int kiln_resize(struct kiln_resizer *r, const struct kiln_image *in, const struct kiln_box *box,
+                uint32_t out_w, uint32_t out_h, int filter, struct kiln_image *out,
+                struct kiln_err *err);
+
+enum kiln_fit { KILN_FIT_STRETCH = 0, KILN_FIT_PAD, KILN_FIT_CROP, KILN_FIT_COUNT };
+const char *kiln_fit_name(int fit);
+int kiln_fit_parse(const char *name);
+
+/* Where a src_w x src_h image goes in a dst_w x dst_h frame under a fit rule: the source box
+ * to resample, the size it is resampled to, and its offset in the frame (pad leaves the rest of
+ * the frame to the pad value). Pure integer arithmetic, see docs/resize.md. */
+struct kiln_fit_geometry {
+    struct kiln_box src;
+    uint32_t inner_w, inner_h, off_x, off_y;
+};
+void kiln_fit_compute(uint32_t src_w, uint32_t src_h, uint32_t dst_w, uint32_t dst_h, int fit,
+                      struct kiln_fit_geometry *g);
+
+#endif

@@ -1,0 +1,113 @@
+/* SHA-256 via libcrypto EVP; kiln never implements the compression function itself. */
+#include "sha256.h"
+
+#include <openssl/evp.h>
+#include <string.h>
+
+int kiln_sha256_init(struct kiln_sha256 *ctx, struct kiln_err *err)
+{
+    EVP_MD_CTX *md = EVP_MD_CTX_new();
+    if (!md)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a SHA-256 context");
+    if (EVP_DigestInit_ex(md, EVP_sha256(), NULL) != 1) {
+        EVP_MD_CTX_free(md);
+        return kiln_err_set(err, KILN_EINTERNAL, "cannot initialise SHA-256 in libcrypto");
+    }
+    ctx->evp = md;
+    return KILN_OK;
+}
+
+void kiln_sha256_update(struct kiln_sha256 *ctx, const void *data, size_t len)
+{
+    if (len)
+        EVP_DigestUpdate(ctx->evp, data, len);
+}
+
+void kiln_sha256_final(struct kiln_sha256 *ctx, uint8_t out[KILN_SHA256_LEN])
+{
+    unsigned int n = 0;
+    EVP_DigestFinal_ex(ctx->evp, out, &n);
+    EVP_DigestInit_ex(ctx->evp, EVP_sha256(), NULL);
+}
+
+void kiln_sha256_free(struct kiln_sha256 *ctx)
+{
+    EVP_MD_CTX_free(ctx->evp);
+    ctx->evp = NULL;
+}
+
+int kiln_sha256_buf(const void *data, size_t len, uint8_t out[KILN_SHA256_LEN], struct kiln_err *err)
+{
+    struct kiln_sha256 ctx;
+    int rc = kiln_sha256_init(&ctx, err);
+    if (rc)
+        return rc;
+    kiln_sha256_update(&ctx, data, len);
+    kiln_sha256_final(&ctx, out);
+    kiln_sha256_free(&ctx);
+    return KILN_OK;
+}
+
+void kiln_sha256_hex(const uint8_t digest[KILN_SHA256_LEN], char hex[KILN_SHA256_HEX])
+{
+    static const char digits[] = "0123456789abcdef";
+    for (int i = 0; i < KILN_SHA256_LEN; i++) {
+        hex[2 * i] = digits[digest[i] >> 4];
+        hex[2 * i + 1] = digits[digest[i] & 15];
+    }
+    hex[64] = '\0';
+}
+
+static int hexval(char c)
+{
+    if (c >= '0' && c <= '9')
+        return c - '0';
+    if (c >= 'a' && c <= 'f')
+        return c - 'a' + 10;
+    if (c >= 'A' && c <= 'F')
+        return c - 'A' + 10;
+    return -1;
+}
+
+int kiln_sha256_parse(const char *hex, uint8_t digest[KILN_SHA256_LEN])
+{
+    if (strlen(hex) != 64)
+        return -1;
+    for (int i = 0; i < KILN_SHA256_LEN; i++) {
+        int hi = hexval(hex[2 * i]), lo = hexval(hex[2 * i + 1]);
+        if (hi < 0 || lo < 0)
+            return -1;
+        digest[i] = (uint8_t)(hi << 4 | lo);
+    }
+    return 0;
+}
+
+int kiln_hmac_sha256(const void *key, size_t keylen, const void *msg, size_t msglen,
+                     uint8_t out[KILN_SHA256_LEN], struct kiln_err *err)
+{
+    uint8_t k[64] = {0}, pad[64], inner[KILN_SHA256_LEN];
+    int rc;
+    if (keylen > 64) {
+        rc = kiln_sha256_buf(key, keylen, k, err);
+        if (rc)
+            return rc;
+    } else if (keylen) {
+        memcpy(k, key, keylen);
+    }
+    struct kiln_sha256 ctx;
+    rc = kiln_sha256_init(&ctx, err);
+    if (rc)
+        return rc;
+    for (int i = 0; i < 64; i++)
+        pad[i] = k[i] ^ 0x36;
+    kiln_sha256_update(&ctx, pad, 64);
+    kiln_sha256_update(&ctx, msg, msglen);
+    kiln_sha256_final(&ctx, inner);
+    for (int i = 0; i < 64; i++)
+        pad[i] = k[i] ^ 0x5c;
+    kiln_sha256_update(&ctx, pad, 64);
+    kiln_sha256_update(&ctx, inner, sizeof inner);
+    kiln_sha256_final(&ctx, out);
+    kiln_sha256_free(&ctx);
+    return KILN_OK;
+}

@@ -1,0 +1,38 @@
+/* SHA-256 (FIPS 180-4) through OpenSSL's EVP interface, which uses the CPU's SHA instructions.
+ * A context is a plain struct the caller owns, one per thread. */
+#ifndef KILN_SHA256_H
+#define KILN_SHA256_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "err.h"
+
+#define KILN_SHA256_LEN 32
+#define KILN_SHA256_HEX 65 /* 64 hex digits and a NUL */
+
+struct kiln_sha256 {
+    void *evp; /* EVP_MD_CTX *, opaque to callers */
+};
+
+/* Returns KILN_OK or KILN_ENOMEM/KILN_EINTERNAL with err set. */
+int kiln_sha256_init(struct kiln_sha256 *ctx, struct kiln_err *err);
+void kiln_sha256_update(struct kiln_sha256 *ctx, const void *data, size_t len);
+/* Writes the digest and resets the context for reuse. */
+void kiln_sha256_final(struct kiln_sha256 *ctx, uint8_t out[KILN_SHA256_LEN]);
+void kiln_sha256_free(struct kiln_sha256 *ctx);
+
+/* One-shot digest of a buffer. */
+int kiln_sha256_buf(const void *data, size_t len, uint8_t out[KILN_SHA256_LEN], struct kiln_err *err);
+
+/* Lower-case hex; hex must hold KILN_SHA256_HEX bytes. */
+void kiln_sha256_hex(const uint8_t digest[KILN_SHA256_LEN], char hex[KILN_SHA256_HEX]);
+/* Parses 64 hex digits (either case); returns 0 on success, -1 otherwise. */
+int kiln_sha256_parse(const char *hex, uint8_t digest[KILN_SHA256_LEN]);
+
+
+
+/* HMAC-SHA256 (RFC 2104) built on the functions above. */
+int kiln_hmac_sha256(const void *key, size_t keylen, const void *msg, size_t msglen,
+                     uint8_t out[KILN_SHA256_LEN], struct kiln_err *err);
+#endif

@@ -1,0 +1,274 @@
+/* Unit keys and the exact and stable dealing rules of docs/split.md. */
+#include "split.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "checked.h"
+#include "sha256.h"
+
+static const char *const mode_names[] = {"exact", "stable"};
+
+const char *kiln_split_mode_name(int mode)
+{
+    return mode == KILN_MODE_EXACT || mode == KILN_MODE_STABLE ? mode_names[mode] : "unknown";
+}
+
+int kiln_split_mode_parse(const char *name)
+{
+    for (int i = 0; i < 2; i++)
+        if (strcmp(name, mode_names[i]) == 0)
+            return i;
+    return -1;
+}
+
+/* Parses a non-negative decimal into millionths; returns -1 on syntax error. */
+static int parse_part(const char *s, size_t len, uint64_t *out, bool *decimal, bool *percent)
+{
+    uint64_t whole = 0, frac = 0;
+    size_t i = 0, fd = 0;
+    *decimal = *percent = false;
+    if (len && s[len - 1] == '%') {
+        *percent = true;
+        len--;
+    }
+    if (len == 0)
+        return -1;
+    for (; i < len && s[i] >= '0' && s[i] <= '9'; i++) {
+        whole = whole * 10 + (uint64_t)(s[i] - '0');
+        if (whole > 1000000000u)
+            return -1;
+    }
+    if (i < len && s[i] == '.') {
+        *decimal = true;
+        for (i++; i < len && s[i] >= '0' && s[i] <= '9'; i++, fd++) {
+            if (fd >= 6)
+                return -1;
+            frac = frac * 10 + (uint64_t)(s[i] - '0');
+        }
+        for (size_t k = fd; k < 6; k++)
+            frac *= 10;
+    }
+    if (i != len || (i == 0))
+        return -1;
+    *out = whole * 1000000u + frac;
+    return 0;
+}
+
+int kiln_split_parse_ratios(const char *text, struct kiln_split_params *p, bool *weights_note,
+                            struct kiln_err *err)
+{
+    uint64_t part[3];
+    unsigned n = 0;
+    bool any_decimal = false, any_percent = false;
+    const char *s = text;
+    *weights_note = false;
+    for (;;) {
+        const char *colon = strchr(s, ':');
+        size_t len = colon ? (size_t)(colon - s) : strlen(s);
+        bool dec, pct;
+        if (n == 3 || parse_part(s, len, &part[n], &dec, &pct) != 0)
+            return kiln_err_set(err, KILN_EINVAL,
+                                "bad --ratios '%s': expected 2 or 3 numbers such as 80:10:10",
+                                text);
+        any_decimal |= dec;
+        any_percent |= pct;
+        n++;
+        if (!colon)
+            break;
+        s = colon + 1;
+    }
+    if (n < 2)
+        return kiln_err_set(err, KILN_EINVAL, "bad --ratios '%s': need 2 or 3 parts", text);
+    uint64_t sum = 0;
+    for (unsigned i = 0; i < n; i++)
+        sum += part[i];
+    if (sum == 0 || part[0] == 0)
+        return kiln_err_set(err, KILN_EINVAL, "bad --ratios '%s': the training share must be > 0",
+                            text);
+    if ((any_decimal || any_percent) && sum != 1000000u && sum != 100000000u)
+        return kiln_err_set(err, KILN_EINVAL,
+                            "bad --ratios '%s': fractions must sum to 1 and percentages to 100",
+                            text);
+    if (!any_decimal && !any_percent && sum != 100000000u)
+        *weights_note = true;
+    p->nparts = n;
+    p->ratio[KILN_SPLIT_TRAIN] = part[0];
+    p->ratio[KILN_SPLIT_VAL] = n == 3 ? part[1] : 0;
+    p->ratio[KILN_SPLIT_TEST] = part[n - 1];
+    return KILN_OK;
+}
+
+/* Writes one share in millionths as a plain decimal: 80000000 -> "80", 250000 -> "0.25". */
+static size_t format_share(uint64_t v, char *buf, size_t len)
+{
+    uint64_t whole = v / 1000000u, frac = v % 1000000u;
+    if (!frac)
+        return (size_t)snprintf(buf, len, "%llu", (unsigned long long)whole);
+    char digits[8];
+    snprintf(digits, sizeof digits, "%06llu", (unsigned long long)frac);
+    size_t n = strlen(digits);
+    while (n && digits[n - 1] == '0')
+        digits[--n] = '\0';
+    return (size_t)snprintf(buf, len, "%llu.%s", (unsigned long long)whole, digits);
+}
+
+void kiln_split_format_ratios(const struct kiln_split_params *p, char *buf, size_t len)
+{
+    size_t used = 0;
+    for (int s = 0; s < KILN_NSPLITS && used < len; s++) {
+        if (s == KILN_SPLIT_VAL && p->nparts == 2)
+            continue;
+        if (s)
+            used += (size_t)snprintf(buf + used, len - used, ":");
+        if (used < len)
+            used += format_share(p->ratio[s], buf + used, len - used);
+    }
+}
+
+int kiln_split_unit_key(uint64_t seed, int id_kind, const void *id, size_t idlen, uint64_t *key,
+                        struct kiln_err *err)
+{
+    static const char tag[] = KILN_SPLIT_ALGORITHM;
+    uint8_t seedle[8], mac[KILN_SHA256_LEN];
+    for (int i = 0; i < 8; i++)
+        seedle[i] = (uint8_t)(seed >> (8 * i));
+    size_t taglen = sizeof tag - 1, msglen;
+    if (!kiln_add_size(taglen + 1, idlen, &msglen))
+        return kiln_err_set(err, KILN_ENOMEM, "unit id too long");
+    uint8_t stackbuf[256];
+    uint8_t *msg = msglen <= sizeof stackbuf ? stackbuf : malloc(msglen);
+    if (!msg)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a unit key message");
+    memcpy(msg, tag, taglen);
+    msg[taglen] = (uint8_t)id_kind;
+    memcpy(msg + taglen + 1, id, idlen);
+    int rc = kiln_hmac_sha256(seedle, sizeof seedle, msg, msglen, mac, err);
+    if (msg != stackbuf)
+        free(msg);
+    if (rc)
+        return rc;
+    uint64_t k = 0;
+    for (int i = 0; i < 8; i++)
+        k = k << 8 | mac[i];
+    *key = k;
+    return KILN_OK;
+}
+
+struct order_ctx_entry {
+    int32_t stratum;
+    uint64_t key;
+    uint32_t unit;
+    const uint8_t *tie; /* unit id bytes, for the (astronomically unlikely) equal keys */
+    size_t tielen;
+};
+
+static int cmp_order(const void *a, const void *b)
+{
+    const struct order_ctx_entry *x = a, *y = b;
+    if (x->stratum != y->stratum)
+        return x->stratum < y->stratum ? -1 : 1;
+    if (x->key != y->key)
+        return x->key < y->key ? -1 : 1;
+    size_t n = x->tielen < y->tielen ? x->tielen : y->tielen;
+    int c = memcmp(x->tie, y->tie, n);
+    if (c)
+        return c;
+    return (x->tielen > y->tielen) - (x->tielen < y->tielen);
+}
+
+int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
+                      const struct kiln_split_params *p, struct kiln_split_report *rep,
+                      struct kiln_err *err)
+{
+    memset(rep, 0, sizeof *rep);
+    const size_t nu = units->nunits;
+    struct order_ctx_entry *ord = kiln_alloc_array(nu, sizeof *ord);
+    if (!ord)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate the split order for %zu units", nu);
+    for (size_t u = 0; u < nu; u++) {
+        struct kiln_unit *un = &units->units[u];
+        const struct kiln_item *id = &cat->items[un->id_item];
+        const void *bytes = un->id_kind == KILN_UNIT_ID_GROUP ? (const void *)id->group
+                                                               : (const void *)id->sha256;
+        size_t len = un->id_kind == KILN_UNIT_ID_GROUP ? strlen(id->group) : KILN_SHA256_LEN;
+        int rc = kiln_split_unit_key(p->seed, un->id_kind, bytes, len, &un->key, err);
+        if (rc) {
+            free(ord);
+            return rc;
+        }
+        ord[u] = (struct order_ctx_entry){p->stratify ? un->stratum : 0, un->key, (uint32_t)u,
+                                          bytes, len};
+        rep->mixed_units += un->mixed;
+    }
+    rep->units = nu;
+    uint64_t R = 0;
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        R += p->ratio[s];
+
+    if (p->mode == KILN_MODE_STABLE) {
+        /* Split s is chosen when key * R < (r_0 + ... + r_s) * 2^64: a threshold on the key as
+         * a fraction of 2^64, so a unit's split depends on its own key alone. */
+        for (size_t u = 0; u < nu; u++) {
+            struct kiln_unit *un = &units->units[u];
+            unsigned __int128 lhs = (unsigned __int128)un->key * R, cum = 0;
+            un->split = KILN_SPLIT_TEST;
+            for (int s = 0; s < KILN_NSPLITS; s++) {
+                cum += p->ratio[s];
+                if (p->ratio[s] && lhs < (cum << 64)) {
+                    un->split = (int8_t)s;
+                    break;
+                }
+            }
+        }
+    } else {
+        qsort(ord, nu, sizeof *ord, cmp_order);
+        size_t i = 0;
+        while (i < nu) {
+            size_t j = i;
+            uint64_t total = 0;
+            while (j < nu && ord[j].stratum == ord[i].stratum)
+                total += units->units[ord[j++].unit].size;
+            /* Deal in key order to the split with the largest remaining deficit
+             * r_s * N - C_s * R (exact integers); ties go to the earlier split. */
+            __int128 count[KILN_NSPLITS] = {0, 0, 0};
+            for (size_t k = i; k < j; k++) {
+                struct kiln_unit *un = &units->units[ord[k].unit];
+                int best = -1;
+                __int128 best_d = 0;
+                for (int s = 0; s < KILN_NSPLITS; s++) {
+                    if (!p->ratio[s])
+                        continue;
+                    __int128 d = (__int128)p->ratio[s] * total - count[s] * (__int128)R;
+                    if (best < 0 || d > best_d) {
+                        best = s;
+                        best_d = d;
+                    }
+                }
+                un->split = (int8_t)best;
+                /* Oversized: the unit alone exceeds the split's whole target r_s * N / R. */
+                if (un->size > 1 && (__int128)un->size * R > (__int128)p->ratio[best] * total)
+                    rep->oversized_units++;
+                count[best] += un->size;
+            }
+            i = j;
+        }
+    }
+    free(ord);
+    for (size_t u = 0; u < nu; u++)
+        rep->units_per_split[units->units[u].split]++;
+    for (size_t i = 0; i < cat->n; i++) {
+        struct kiln_item *it = &cat->items[i];
+        uint32_t u = units->unit_of[i];
+        if (u == KILN_NO_UNIT) {
+            it->split = KILN_SPLIT_NONE;
+            it->unit_key = 0;
+            continue;
+        }
+        it->split = units->units[u].split;
+        it->unit_key = units->units[u].key;
+        rep->items[it->split]++;
+    }
+    return KILN_OK;
+}

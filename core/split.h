@@ -1,0 +1,54 @@
+/* Split assignment: a pure function of (content hashes, group keys, labels, seed, ratios, mode,
+ * algorithm version). docs/split.md specifies every step so that it can be re-implemented. */
+#ifndef KILN_SPLIT_H
+#define KILN_SPLIT_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#include "catalog.h"
+#include "err.h"
+#include "units.h"
+
+#define KILN_SPLIT_ALGORITHM "kiln-split-v1"
+
+enum kiln_split_mode { KILN_MODE_EXACT = 0, KILN_MODE_STABLE = 1 };
+const char *kiln_split_mode_name(int mode);
+int kiln_split_mode_parse(const char *name);
+
+struct kiln_split_params {
+    uint64_t seed;
+    uint64_t ratio[KILN_NSPLITS]; /* weights in millionths; two-way splits leave ratio[1] = 0 */
+    unsigned nparts;              /* 2 (train:test) or 3 (train:val:test) as written */
+    int mode;
+    bool stratify;
+};
+
+/* Parses "80:10:10", "70:30", "0.8:0.1:0.1" or "80%:20%". Parts with a decimal point or a
+ * percent sign must sum to 1 or 100; plain integers are weights. *weights_note is set to true
+ * when integer weights do not sum to 100 (the command warns). Two parts mean train:test. */
+int kiln_split_parse_ratios(const char *text, struct kiln_split_params *p, bool *weights_note,
+                            struct kiln_err *err);
+/* Writes the ratios as given, in the same decimal form ("80:10:10", "0.7:0.3"). */
+void kiln_split_format_ratios(const struct kiln_split_params *p, char *buf, size_t len);
+
+/* The unit key: the first 8 bytes, big-endian, of HMAC-SHA256 with key = seed as 8 bytes
+ * little-endian and message = "kiln-split-v1" || kind byte || id bytes. */
+int kiln_split_unit_key(uint64_t seed, int id_kind, const void *id, size_t idlen, uint64_t *key,
+                        struct kiln_err *err);
+
+struct kiln_split_report {
+    size_t units, mixed_units;
+    size_t items[KILN_NSPLITS];
+    size_t units_per_split[KILN_NSPLITS];
+    size_t oversized_units; /* units larger than their stratum's target for the split they got */
+};
+
+/* Assigns every unit (keys first) and copies the split and unit key to each item of cat.
+ * Items outside any unit get KILN_SPLIT_NONE. */
+int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
+                      const struct kiln_split_params *p, struct kiln_split_report *rep,
+                      struct kiln_err *err);
+
+#endif

@@ -1,0 +1,45 @@
+/* The pack stage: decode every item that has a split, prepare one fixed-size record each,
+ * write train/val/test .kten files at computed offsets, compute exact statistics, and write
+ * items.csv, catalog.csv, manifest.json and SHA256SUMS, all renamed into place only when
+ * complete. */
+#ifndef KILN_STAGE_PACK_H
+#define KILN_STAGE_PACK_H
+
+#include <jansson.h>
+#include <stdbool.h>
+
+#include "catalog.h"
+#include "err.h"
+#include "recipe.h"
+#include "stage_scan.h"
+#include "stats.h"
+
+struct kiln_pack_opts {
+    struct kiln_recipe recipe; /* finished (kiln_recipe_finish) */
+    const char *outdir;
+    unsigned jobs;
+    size_t queue_bytes;
+    const json_t *catalog_record; /* catalog.json (scan and split record) or NULL */
+    kiln_progress_fn progress;
+    void *progress_ctx;
+};
+
+struct kiln_pack_report {
+    bool present[KILN_NSPLITS];  /* a file was written for the split */
+    size_t records[KILN_NSPLITS];
+    struct kiln_stats stats[KILN_NSPLITS];
+    size_t dct_reduced;          /* items decoded at a reduced scale */
+    uint64_t bytes_read;
+    size_t skipped;              /* catalogue rows not packed (not ok, or no split) */
+};
+
+/* Packs cat (loaded, classes indexed, split assigned) into o->outdir. The folder is created if
+ * missing; it must be empty or hold an earlier kiln output, whose manifest is removed first so
+ * that a failed run never leaves a manifest describing files it did not write. */
+int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
+                    struct kiln_pack_report *rep, struct kiln_err *err);
+
+/* The names of the files pack writes, in the order SHA256SUMS lists them. */
+extern const char *const kiln_split_files[KILN_NSPLITS]; /* "train.kten", ... */
+
+#endif

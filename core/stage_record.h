@@ -1,0 +1,21 @@
+/* The JSON record of how a catalogue was made (scan options and counts, split parameters and
+ * results). It sits beside catalog.csv as catalog.json and is copied into manifest.json. */
+#ifndef KILN_STAGE_RECORD_H
+#define KILN_STAGE_RECORD_H
+
+#include <jansson.h>
+
+#include "split.h"
+#include "stage_scan.h"
+#include "units.h"
+
+json_t *kiln_scan_record(const char *const *sources, size_t nsources,
+                         const struct kiln_scan_opts *o, const struct kiln_scan_report *rep,
+                         const struct kiln_catalog *cat);
+json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_units *u,
+                          const struct kiln_split_report *rep);
+/* Reads the split parameters back from a split record (reproduce). */
+int kiln_split_params_from_record(const json_t *split, struct kiln_split_params *p,
+                                  struct kiln_err *err);
+
+#endif

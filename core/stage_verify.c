@@ -1,0 +1,205 @@
+/* Verify stage. Each file is hashed once; the digest is compared with both the manifest and
+ * SHA256SUMS, so the two lists also vouch for each other. */
+#include "stage_verify.h"
+
+#include <jansson.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../formats/kten.h"
+#include "../formats/manifest.h"
+#include "../formats/outfile.h"
+#include "sha256.h"
+
+struct checked {
+    char name[256];
+    char hex[KILN_SHA256_HEX];
+    int ok; /* the file could be read */
+};
+
+static void report(kiln_issue_fn fn, void *ctx, struct kiln_verify_report *rep, int kind,
+                   const char *fmt, ...) __attribute__((format(printf, 5, 6)));
+
+static void report(kiln_issue_fn fn, void *ctx, struct kiln_verify_report *rep, int kind,
+                   const char *fmt, ...)
+{
+    char msg[768];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    rep->problems++;
+    if (fn)
+        fn(ctx, kind, msg);
+}
+
+static char *join(const char *dir, const char *name)
+{
+    size_t n = strlen(dir) + strlen(name) + 2;
+    char *s = malloc(n);
+    if (s)
+        snprintf(s, n, "%s/%s", dir, name);
+    return s;
+}
+
+/* Hashes a file; a missing or unreadable file is reported and gets ok = 0. */
+static int hash_file(const char *dir, const char *name, struct checked *c, kiln_issue_fn fn,
+                     void *ctx, struct kiln_verify_report *rep, uint64_t *size)
+{
+    snprintf(c->name, sizeof c->name, "%s", name);
+    c->ok = 0;
+    char *p = join(dir, name);
+    if (!p)
+        return KILN_ENOMEM;
+    uint8_t d[KILN_SHA256_LEN];
+    struct kiln_err e;
+    int rc = kiln_file_sha256(p, d, size, &e);
+    free(p);
+    if (rc) {
+        report(fn, ctx, rep, KILN_ISSUE_MISSING, "%s: %s", name, e.msg);
+        return KILN_OK;
+    }
+    kiln_sha256_hex(d, c->hex);
+    c->ok = 1;
+    rep->files_checked++;
+    rep->bytes_hashed += *size;
+    return KILN_OK;
+}
+
+static int check_kten(const char *dir, const char *name, kiln_issue_fn fn, void *ctx,
+                      struct kiln_verify_report *rep)
+{
+    char *p = join(dir, name);
+    if (!p)
+        return KILN_ENOMEM;
+    struct kiln_kten_info info;
+    struct kiln_err e;
+    int rc = kiln_kten_open(p, &info, &e);
+    if (rc) {
+        report(fn, ctx, rep, KILN_ISSUE_DAMAGED, "%s", e.msg);
+        free(p);
+        return KILN_OK;
+    }
+    uint32_t bad;
+    rc = kiln_kten_check(p, &info, &bad, &e);
+    rep->arrays_checked += info.narrays;
+    if (rc == KILN_EMISMATCH) {
+        for (size_t i = 0; i < info.narrays; i++)
+            if (bad & (1u << i))
+                report(fn, ctx, rep, KILN_ISSUE_DAMAGED,
+                       "%s: array '%s' does not match the SHA-256 in its header", name,
+                       info.arrays[i].name);
+        if (bad & (1u << 31))
+            report(fn, ctx, rep, KILN_ISSUE_DAMAGED,
+                   "%s: metadata block does not match the SHA-256 in its header", name);
+    } else if (rc) {
+        report(fn, ctx, rep, KILN_ISSUE_DAMAGED, "%s", e.msg);
+    }
+    kiln_kten_info_free(&info);
+    free(p);
+    return KILN_OK;
+}
+
+int kiln_stage_verify(const char *outdir, kiln_issue_fn fn, void *ctx,
+                      struct kiln_verify_report *rep, struct kiln_err *err)
+{
+    memset(rep, 0, sizeof *rep);
+    char *mpath = join(outdir, "manifest.json");
+    if (!mpath)
+        return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    json_t *m;
+    int rc = kiln_json_load(mpath, &m, err);
+    free(mpath);
+    if (rc)
+        return rc;
+    const json_t *outputs = json_object_get(m, "outputs");
+    if (!json_is_array(outputs)) {
+        json_decref(m);
+        return kiln_err_set(err, KILN_EINVAL, "%s/manifest.json lists no outputs", outdir);
+    }
+    size_t n = json_array_size(outputs);
+    struct checked *files = calloc(n + 1, sizeof *files);
+    if (!files) {
+        json_decref(m);
+        return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    }
+    for (size_t i = 0; i < n; i++) {
+        const json_t *o = json_array_get(outputs, i);
+        const char *name = kiln_json_str(o, "name"), *sha = kiln_json_str(o, "sha256");
+        const json_t *bytes = json_object_get(o, "bytes");
+        if (!name || !sha || !json_is_integer(bytes) || strchr(name, '/')) {
+            report(fn, ctx, rep, KILN_ISSUE_DAMAGED, "manifest.json: output %zu is malformed", i);
+            continue;
+        }
+        uint64_t size = 0;
+        if (hash_file(outdir, name, &files[i], fn, ctx, rep, &size)) {
+            free(files);
+            json_decref(m);
+            return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+        }
+        if (!files[i].ok)
+            continue;
+        if ((json_int_t)size != json_integer_value(bytes))
+            report(fn, ctx, rep, KILN_ISSUE_DAMAGED,
+                   "%s: %llu bytes, manifest.json records %lld", name, (unsigned long long)size,
+                   (long long)json_integer_value(bytes));
+        else if (strcmp(files[i].hex, sha) != 0)
+            report(fn, ctx, rep, KILN_ISSUE_DAMAGED,
+                   "%s: SHA-256 %s differs from %s recorded in manifest.json", name,
+                   files[i].hex, sha);
+        size_t len = strlen(name);
+        if (len > 5 && strcmp(name + len - 5, ".kten") == 0)
+            check_kten(outdir, name, fn, ctx, rep);
+    }
+    uint64_t msize;
+    hash_file(outdir, "manifest.json", &files[n], fn, ctx, rep, &msize);
+    /* SHA256SUMS must list exactly the outputs plus manifest.json, with the same digests. */
+    char *spath = join(outdir, "SHA256SUMS");
+    FILE *f = spath ? fopen(spath, "r") : NULL;
+    free(spath);
+    if (!f) {
+        report(fn, ctx, rep, KILN_ISSUE_MISSING, "SHA256SUMS: missing or unreadable");
+    } else {
+        char line[1024];
+        size_t listed = 0;
+        unsigned char *seen = calloc(n + 1, 1);
+        while (seen && fgets(line, sizeof line, f)) {
+            size_t len = strlen(line);
+            while (len && (line[len - 1] == '\n' || line[len - 1] == '\r'))
+                line[--len] = '\0';
+            if (len < 67 || line[64] != ' ' || line[65] != ' ') {
+                report(fn, ctx, rep, KILN_ISSUE_DAMAGED, "SHA256SUMS: malformed line '%.80s'",
+                       line);
+                continue;
+            }
+            line[64] = '\0';
+            const char *name = line + 66;
+            size_t k = 0;
+            while (k <= n && strcmp(files[k].name, name) != 0)
+                k++;
+            if (k > n) {
+                report(fn, ctx, rep, KILN_ISSUE_DAMAGED,
+                       "SHA256SUMS: lists %s, which the manifest does not", name);
+                continue;
+            }
+            seen[k] = 1;
+            listed++;
+            if (files[k].ok && strcmp(files[k].hex, line) != 0)
+                report(fn, ctx, rep, KILN_ISSUE_DAMAGED,
+                       "%s: SHA-256 %s differs from %s listed in SHA256SUMS", name, files[k].hex,
+                       line);
+        }
+        for (size_t k = 0; seen && k <= n; k++)
+            if (!seen[k] && files[k].name[0])
+                report(fn, ctx, rep, KILN_ISSUE_DAMAGED, "SHA256SUMS: does not list %s",
+                       files[k].name);
+        free(seen);
+        fclose(f);
+    }
+    free(files);
+    json_decref(m);
+    return rep->problems ? kiln_err_set(err, KILN_EMISMATCH, "%zu problems found", rep->problems)
+                         : KILN_OK;
+}

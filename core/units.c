@@ -1,0 +1,204 @@
+/* Union-find over catalogue items. Every relation is found by sorting item indices by the
+ * relation's value and joining neighbours, so the result is independent of row order. */
+#include "units.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+#include "checked.h"
+
+struct uf {
+    uint32_t *parent;
+};
+
+static uint32_t uf_find(struct uf *u, uint32_t x)
+{
+    while (u->parent[x] != x) {
+        u->parent[x] = u->parent[u->parent[x]];
+        x = u->parent[x];
+    }
+    return x;
+}
+
+/* The smaller index becomes the root, so the structure does not depend on union order. */
+static bool uf_union(struct uf *u, uint32_t a, uint32_t b)
+{
+    a = uf_find(u, a);
+    b = uf_find(u, b);
+    if (a == b)
+        return false;
+    if (a < b)
+        u->parent[b] = a;
+    else
+        u->parent[a] = b;
+    return true;
+}
+
+/* qsort has no context argument, so relations sort (value pointer, item index) pairs. */
+struct keyed {
+    const void *key;
+    uint32_t index;
+};
+
+static int cmp_digest(const void *a, const void *b)
+{
+    const struct keyed *x = a, *y = b;
+    int c = memcmp(x->key, y->key, KILN_SHA256_LEN);
+    return c ? c : (x->index > y->index) - (x->index < y->index);
+}
+
+static int cmp_string(const void *a, const void *b)
+{
+    const struct keyed *x = a, *y = b;
+    int c = strcmp(x->key, y->key);
+    return c ? c : (x->index > y->index) - (x->index < y->index);
+}
+
+static int cmp_u64(const void *a, const void *b)
+{
+    uint64_t x = *(const uint64_t *)a, y = *(const uint64_t *)b;
+    return (x > y) - (x < y);
+}
+
+enum relation { REL_BYTES, REL_PIXELS, REL_GROUP };
+
+static size_t join_equal(const struct kiln_catalog *cat, struct uf *uf, struct keyed *buf,
+                         enum relation rel)
+{
+    size_t n = 0;
+    for (size_t i = 0; i < cat->n; i++) {
+        const struct kiln_item *it = &cat->items[i];
+        if (it->status != KILN_ST_OK)
+            continue;
+        if (rel == REL_BYTES)
+            buf[n++] = (struct keyed){it->sha256, (uint32_t)i};
+        else if (rel == REL_PIXELS && it->has_pixels)
+            buf[n++] = (struct keyed){it->pixel_sha256, (uint32_t)i};
+        else if (rel == REL_GROUP && it->group[0])
+            buf[n++] = (struct keyed){it->group, (uint32_t)i};
+    }
+    int (*cmp)(const void *, const void *) = rel == REL_GROUP ? cmp_string : cmp_digest;
+    qsort(buf, n, sizeof *buf, cmp);
+    size_t joined = 0;
+    for (size_t i = 1; i < n; i++) {
+        bool same = rel == REL_GROUP ? strcmp(buf[i - 1].key, buf[i].key) == 0
+                                     : memcmp(buf[i - 1].key, buf[i].key, KILN_SHA256_LEN) == 0;
+        if (same && uf_union(uf, buf[i - 1].index, buf[i].index))
+            joined++;
+    }
+    return joined;
+}
+
+void kiln_units_free(struct kiln_units *u)
+{
+    free(u->unit_of);
+    free(u->units);
+    memset(u, 0, sizeof *u);
+}
+
+/* Unit id precedence: a group key beats a content digest; among equals the byte-wise smallest. */
+static bool better_id(const struct kiln_catalog *cat, uint32_t cand, uint32_t cur)
+{
+    const struct kiln_item *a = &cat->items[cand], *b = &cat->items[cur];
+    bool ga = a->group[0] != 0, gb = b->group[0] != 0;
+    if (ga != gb)
+        return ga;
+    if (ga)
+        return strcmp(a->group, b->group) < 0;
+    return memcmp(a->sha256, b->sha256, KILN_SHA256_LEN) < 0;
+}
+
+int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *extra,
+                     struct kiln_units *out, struct kiln_err *err)
+{
+    memset(out, 0, sizeof *out);
+    if (cat->n >= KILN_NO_UNIT)
+        return kiln_err_set(err, KILN_ETOOLARGE, "catalogue of %zu rows is too large", cat->n);
+    struct uf uf = {kiln_alloc_array(cat->n, sizeof(uint32_t))};
+    struct keyed *buf = kiln_alloc_array(cat->n, sizeof *buf);
+    out->unit_of = kiln_alloc_array(cat->n, sizeof *out->unit_of);
+    if (!uf.parent || !buf || !out->unit_of) {
+        free(uf.parent);
+        free(buf);
+        kiln_units_free(out);
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate unit tables for %zu items", cat->n);
+    }
+    out->nitems = cat->n;
+    for (size_t i = 0; i < cat->n; i++)
+        uf.parent[i] = (uint32_t)i;
+    out->merged_groups = join_equal(cat, &uf, buf, REL_GROUP);
+    out->merged_bytes = join_equal(cat, &uf, buf, REL_BYTES);
+    out->merged_pixels = join_equal(cat, &uf, buf, REL_PIXELS);
+    free(buf);
+    if (extra)
+        for (size_t i = 0; i < extra->n; i++) {
+            uint32_t a = extra->pair[i][0], b = extra->pair[i][1];
+            if (a < cat->n && b < cat->n && cat->items[a].status == KILN_ST_OK &&
+                cat->items[b].status == KILN_ST_OK && uf_union(&uf, a, b))
+                out->merged_near++;
+        }
+
+    /* Number the roots in item order; each unit is then described by a scan over its items. */
+    size_t nunits = 0;
+    for (size_t i = 0; i < cat->n; i++) {
+        out->unit_of[i] = KILN_NO_UNIT;
+        if (cat->items[i].status == KILN_ST_OK && uf_find(&uf, (uint32_t)i) == i)
+            out->unit_of[i] = (uint32_t)nunits++;
+    }
+    out->units = kiln_alloc_array(nunits, sizeof *out->units);
+    /* Per-unit label tallies: label counts are gathered by sorting (unit, class) pairs. */
+    uint64_t *pairs = kiln_alloc_array(cat->n, sizeof *pairs);
+    if (!out->units || !pairs) {
+        free(uf.parent);
+        free(pairs);
+        kiln_units_free(out);
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate %zu units", nunits);
+    }
+    memset(out->units, 0, nunits * sizeof *out->units);
+    out->nunits = nunits;
+    size_t npairs = 0;
+    for (size_t i = 0; i < cat->n; i++) {
+        if (cat->items[i].status != KILN_ST_OK)
+            continue;
+        uint32_t u = out->unit_of[uf_find(&uf, (uint32_t)i)];
+        out->unit_of[i] = u;
+        struct kiln_unit *un = &out->units[u];
+        if (un->size == 0) {
+            un->id_item = (uint32_t)i;
+            un->split = KILN_SPLIT_NONE;
+        } else if (better_id(cat, (uint32_t)i, un->id_item)) {
+            un->id_item = (uint32_t)i;
+        }
+        un->size++;
+        /* class -1 maps to 0 so that "unlabelled" sorts before every class */
+        pairs[npairs++] = (uint64_t)u << 32 | (uint32_t)(cat->items[i].class_index + 1);
+    }
+    free(uf.parent);
+    for (size_t u = 0; u < nunits; u++)
+        out->units[u].id_kind =
+            cat->items[out->units[u].id_item].group[0] ? KILN_UNIT_ID_GROUP : KILN_UNIT_ID_CONTENT;
+    /* Most frequent class per unit, ties to the smallest class index (unlabelled smallest). */
+    qsort(pairs, npairs, sizeof *pairs, cmp_u64);
+    size_t i = 0;
+    while (i < npairs) {
+        uint32_t u = (uint32_t)(pairs[i] >> 32);
+        size_t best_n = 0, distinct = 0;
+        int32_t best = -1;
+        while (i < npairs && (uint32_t)(pairs[i] >> 32) == u) {
+            uint32_t cls = (uint32_t)pairs[i];
+            size_t j = i;
+            while (j < npairs && pairs[j] == pairs[i])
+                j++;
+            distinct++;
+            if (j - i > best_n) { /* strict: earlier (smaller) classes win ties */
+                best_n = j - i;
+                best = (int32_t)cls - 1;
+            }
+            i = j;
+        }
+        out->units[u].stratum = best;
+        out->units[u].mixed = distinct > 1;
+    }
+    free(pairs);
+    return KILN_OK;
+}

@@ -1,0 +1,208 @@
+/* PNG decoder on libpng: every bit depth, colour type and interlace method, expanded to 8 or
+ * 16-bit grey, grey+alpha, RGB or RGBA (palette and tRNS become colour and alpha). */
+#include <png.h>
+#include <stdio.h>
+#include <setjmp.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "decoder.h"
+#include "exif.h"
+
+/* Ancillary chunks (text, ICC profiles) larger than this are refused by libpng instead of
+ * being allocated: a "bomb" chunk must not cost memory. */
+#define PNG_CHUNK_LIMIT (8u * 1024u * 1024u)
+
+struct png_ctx {
+    jmp_buf jump;
+    const uint8_t *data;
+    size_t len, pos;
+    int truncated;
+    struct kiln_err *err;
+    png_structp png;
+    png_infop info;
+    png_bytep *rows;
+};
+
+static void png_on_error(png_structp png, png_const_charp msg)
+{
+    struct png_ctx *c = png_get_error_ptr(png);
+    kiln_err_set(c->err, c->truncated ? KILN_ETRUNCATED : KILN_ECORRUPT, "PNG %s", msg);
+    longjmp(c->jump, 1);
+}
+
+static void png_on_warning(png_structp png, png_const_charp msg)
+{
+    (void)png;
+    (void)msg; /* benign by libpng's definition (e.g. a bad ancillary chunk it skipped) */
+}
+
+static void png_read_mem(png_structp png, png_bytep out, size_t n)
+{
+    struct png_ctx *c = png_get_io_ptr(png);
+    if (c->len - c->pos < n) {
+        c->truncated = 1;
+        png_error(png, "data ends early");
+    }
+    memcpy(out, c->data + c->pos, n);
+    c->pos += n;
+}
+
+static int png_probe(const uint8_t *head, size_t len)
+{
+    static const uint8_t sig[8] = {0x89, 'P', 'N', 'G', '\r', '\n', 0x1a, '\n'};
+    return len >= 8 && memcmp(head, sig, 8) == 0 ? 100 : 0;
+}
+
+static int png_open(struct png_ctx *c, const uint8_t *data, size_t len, struct kiln_err *err)
+{
+    memset(c, 0, sizeof *c);
+    c->data = data;
+    c->len = len;
+    c->err = err;
+    c->png = png_create_read_struct(PNG_LIBPNG_VER_STRING, c, png_on_error, png_on_warning);
+    if (!c->png)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot create a libpng reader");
+    c->info = png_create_info_struct(c->png);
+    if (!c->info) {
+        png_destroy_read_struct(&c->png, NULL, NULL);
+        return kiln_err_set(err, KILN_ENOMEM, "cannot create a libpng info struct");
+    }
+    png_set_read_fn(c->png, c, png_read_mem);
+    png_set_chunk_malloc_max(c->png, PNG_CHUNK_LIMIT);
+    return KILN_OK;
+}
+
+static void png_close(struct png_ctx *c)
+{
+    free(c->rows);
+    png_destroy_read_struct(&c->png, &c->info, NULL);
+}
+
+static void png_fill_info(struct png_ctx *c, struct kiln_image_info *info)
+{
+    png_structp png = c->png;
+    png_infop pi = c->info;
+    int type = png_get_color_type(png, pi), bits = png_get_bit_depth(png, pi);
+    int trns = png_get_valid(png, pi, PNG_INFO_tRNS) != 0;
+    memset(info, 0, sizeof *info);
+    info->width = png_get_image_width(png, pi);
+    info->height = png_get_image_height(png, pi);
+    info->stored_depth = (uint32_t)bits;
+    info->depth = bits == 16 ? 16 : 8;
+    info->pages = 1;
+    info->max_scale_denom = 1;
+    switch (type) {
+    case PNG_COLOR_TYPE_GRAY: info->channels = trns ? 2 : 1; break;
+    case PNG_COLOR_TYPE_GRAY_ALPHA: info->channels = 2; break;
+    case PNG_COLOR_TYPE_PALETTE: info->channels = trns ? 4 : 3; break;
+    case PNG_COLOR_TYPE_RGB: info->channels = trns ? 4 : 3; break;
+    default: info->channels = 4; break;
+    }
+    info->orientation = 1;
+#ifdef PNG_eXIf_SUPPORTED
+    png_bytep exif = NULL;
+    png_uint_32 nexif = 0;
+    if (png_get_eXIf_1(png, pi, &nexif, &exif) && exif)
+        info->orientation = kiln_exif_orientation(exif, nexif);
+#endif
+    size_t used = 0;
+    const char *notes[5];
+    int nn = 0;
+    if (png_get_interlace_type(png, pi) == PNG_INTERLACE_ADAM7)
+        notes[nn++] = "interlaced";
+    if (type == PNG_COLOR_TYPE_PALETTE)
+        notes[nn++] = "palette";
+    if (png_get_valid(png, pi, PNG_INFO_sRGB))
+        notes[nn++] = "sRGB ignored";
+    else if (png_get_valid(png, pi, PNG_INFO_gAMA))
+        notes[nn++] = "gAMA ignored";
+    if (png_get_valid(png, pi, PNG_INFO_iCCP))
+        notes[nn++] = "iCCP ignored";
+    for (int i = 0; i < nn && used + strlen(notes[i]) + 3 < sizeof info->note; i++)
+        used += (size_t)snprintf(info->note + used, sizeof info->note - used, "%s%s",
+                                 i ? "; " : "", notes[i]);
+}
+
+static int png_read_info_fn(const uint8_t *data, size_t len, const struct kiln_decode_limits *lim,
+                            struct kiln_image_info *info, struct kiln_err *err)
+{
+    struct png_ctx c;
+    int rc = png_open(&c, data, len, err);
+    if (rc)
+        return rc;
+    if (setjmp(c.jump)) {
+        png_close(&c);
+        return err ? err->code : KILN_ECORRUPT;
+    }
+    if (lim && lim->max_side)
+        png_set_user_limits(c.png, lim->max_side, lim->max_side);
+    png_read_info(c.png, c.info);
+    png_fill_info(&c, info);
+    png_close(&c);
+    return KILN_OK;
+}
+
+static int host_is_little_endian(void)
+{
+    const uint16_t one = 1;
+    return *(const uint8_t *)&one == 1;
+}
+
+static int png_decode_fn(const uint8_t *data, size_t len, const struct kiln_image_info *want,
+                         uint32_t denom, struct kiln_image *out, struct kiln_err *err)
+{
+    if (denom != 1)
+        return kiln_err_set(err, KILN_EINTERNAL, "PNG cannot decode at 1/%u scale", denom);
+    struct png_ctx c;
+    int rc = png_open(&c, data, len, err);
+    if (rc)
+        return rc;
+    if (setjmp(c.jump)) {
+        png_close(&c);
+        return err ? err->code : KILN_ECORRUPT;
+    }
+    png_set_user_limits(c.png, want->width, want->height);
+    png_read_info(c.png, c.info);
+    struct kiln_image_info got;
+    png_fill_info(&c, &got);
+    if (got.width != out->width || got.height != out->height || got.channels != out->channels ||
+        got.depth != out->depth || got.width != want->width || got.height != want->height) {
+        png_close(&c);
+        return kiln_err_set(err, KILN_EINTERNAL, "PNG header changed between reads");
+    }
+    png_set_expand(c.png); /* palette -> RGB, grey < 8 bits -> 8, tRNS -> alpha */
+    if (got.depth == 16 && host_is_little_endian())
+        png_set_swap(c.png);
+    png_set_interlace_handling(c.png);
+    png_read_update_info(c.png, c.info);
+    if (png_get_rowbytes(c.png, c.info) != out->stride) {
+        png_close(&c);
+        return kiln_err_set(err, KILN_EINTERNAL, "PNG row size %zu differs from %zu",
+                            (size_t)png_get_rowbytes(c.png, c.info), out->stride);
+    }
+    c.rows = malloc((size_t)out->height * sizeof *c.rows);
+    if (!c.rows) {
+        png_close(&c);
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate PNG row pointers");
+    }
+    for (uint32_t y = 0; y < out->height; y++)
+        c.rows[y] = (png_bytep)out->data + (size_t)y * out->stride;
+    png_read_image(c.png, c.rows);
+    png_close(&c);
+    return KILN_OK;
+}
+
+static void png_library_version(char *buf, size_t len)
+{
+    snprintf(buf, len, "%s", png_get_libpng_ver(NULL));
+}
+
+const struct kiln_decoder kiln_decoder_png = {
+    .name = "png",
+    .probe = png_probe,
+    .read_info = png_read_info_fn,
+    .decode = png_decode_fn,
+    .library = "libpng",
+    .library_version = png_library_version,
+};
