@@ -45,6 +45,8 @@ void cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 void cli_warn(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 /* Exit code for an error code returned by core/ or formats/. */
 int cli_exit_for(int code);
+/* Exit code for a failure to read an input file the user named: 3, or 1 for memory. */
+int cli_exit_for_input(int code);
 /* Reports a usage error and returns KILN_EXIT_USAGE. */
 int cli_usage_error(const char *cmd, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 

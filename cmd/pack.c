@@ -81,7 +81,7 @@ int cmd_pack(int argc, char **argv)
     if (rc) {
         cli_error("%s", err.msg);
         kiln_catalog_free(&cat);
-        return cli_exit_for(rc);
+        return cli_exit_for_input(rc);
     }
     char *rec_path = cli_catalog_record_path(input);
     json_t *rec = NULL;

@@ -66,6 +66,11 @@ int cmd_split(int argc, char **argv)
     int rc = kiln_catalog_csv_load(input, &cat, &had_split, &err);
     if (!rc)
         rc = kiln_catalog_index_classes(&cat, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        kiln_catalog_free(&cat);
+        return cli_exit_for_input(rc);
+    }
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report rep;

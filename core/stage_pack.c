@@ -292,7 +292,7 @@ static int got_member(void *ctx, struct kiln_source_entry *e, struct kiln_err *e
             if (e->status != KILN_ST_OK) {
                 char name[2048];
                 free(e->data);
-                return kiln_err_set(err, KILN_EIO, "cannot read %s: %s",
+                return kiln_err_set(err, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
                                     item_name(&items[i], name, sizeof name), e->reason);
             }
             return queue_job(run, (uint32_t)i, e->data, e->size, err);
@@ -325,7 +325,7 @@ static void *reader_main(void *arg)
         rc = kiln_source_read_file(p, max_bytes, &data, &size, &re);
         if (rc) {
             char name[2048];
-            rc = kiln_err_set(&e, KILN_EIO, "cannot read %s: %s",
+            rc = kiln_err_set(&e, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
                               item_name(it, name, sizeof name), re.msg);
         } else {
             rc = queue_job(run, (uint32_t)i, data, size, &e);
@@ -356,7 +356,7 @@ static void *reader_main(void *arg)
             for (size_t k = i; k < j && !rc; k++)
                 if (run->record_of[k] != NO_RECORD && !run->delivered[k]) {
                     char name[2048];
-                    rc = kiln_err_set(&e, KILN_EIO, "%s is no longer in its archive",
+                    rc = kiln_err_set(&e, KILN_EMISMATCH, "%s is no longer in its archive",
                                       item_name(&cat->items[k], name, sizeof name));
                 }
         }

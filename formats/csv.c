@@ -53,7 +53,7 @@ int kiln_csv_next(struct kiln_csv_reader *r, struct kiln_err *err)
             return -kiln_err_sys(err, KILN_EIO, errno, "cannot read %s", r->name);
         return 0;
     }
-    r->line++;
+    r->line = ++r->lines_read;
     size_t row_line = r->line;
     if (start_field(r))
         return -kiln_err_set(err, KILN_ENOMEM, "row too large in %s", r->name);
@@ -82,7 +82,7 @@ int kiln_csv_next(struct kiln_csv_reader *r, struct kiln_err *err)
                 c = d; /* fall through to the unquoted handling of the next character */
             } else {
                 if (c == '\n')
-                    r->line++;
+                    r->lines_read++;
                 if (put(r, (char)c))
                     return -kiln_err_set(err, KILN_ENOMEM, "row too large in %s", r->name);
                 continue;

@@ -17,6 +17,7 @@ struct kiln_csv_reader {
     char **fields; /* valid after kiln_csv_next until the next call */
     size_t fields_cap;
     size_t line;   /* 1-based line where the current row starts */
+    size_t lines_read; /* physical lines consumed so far (rows may span lines) */
 };
 
 /* Opens path for reading. */

@@ -1,0 +1,46 @@
+# Shared helpers for command-level tests. Each test sources this file; ctest passes KILN,
+# KILN_DEMO, KILN_TESTDATA, PYTHON, KILN_SRC and KILN_TOOLS in the environment.
+set -euo pipefail
+: "${KILN:?KILN must name the kiln binary}"
+: "${PYTHON:=/usr/bin/python3}"
+: "${KILN_SRC:?KILN_SRC must name the source tree}"
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+
+fail() {
+    echo "FAIL: $*" >&2
+    exit 1
+}
+
+skip() {
+    echo "SKIP: $*"
+    exit 77
+}
+
+need_testdata() {
+    [ -n "${KILN_TESTDATA:-}" ] && [ -d "$KILN_TESTDATA/$1" ] ||
+        skip "published test data $1 not found under ${KILN_TESTDATA:-(unset)}"
+}
+
+need_python() {
+    "$PYTHON" -c 'import numpy, PIL' 2>/dev/null ||
+        skip "$PYTHON with numpy and PIL is needed (Debian: python3-numpy python3-pil)"
+}
+
+# expect_exit N command...: runs the command, fails unless it exits with status N. Its
+# standard output and error are kept in $work/stdout and $work/stderr.
+expect_exit() {
+    local want=$1 got=0
+    shift
+    "$@" >"$work/stdout" 2>"$work/stderr" || got=$?
+    if [ "$got" != "$want" ]; then
+        echo "--- stdout" >&2; cat "$work/stdout" >&2
+        echo "--- stderr" >&2; cat "$work/stderr" >&2
+        fail "'$*' exited $got, expected $want"
+    fi
+}
+
+# demo_data DIR: generates the demo data set once per test.
+demo_data() {
+    "$KILN_DEMO" "$1" >/dev/null
+}

@@ -1,0 +1,22 @@
+# The Debian packages kiln needs, in one place. Sourced by examples/demo.sh and tests/run.sh.
+# kiln_deps_install: installs what is missing when root, otherwise prints the exact command.
+KILN_BUILD_PACKAGES="build-essential cmake pkg-config libpng-dev libjpeg62-turbo-dev zlib1g-dev \
+libarchive-dev libssl-dev libjansson-dev libtiff-dev"
+KILN_TEST_PACKAGES="libcmocka-dev python3-numpy python3-pil zip xz-utils bzip2 zstd"
+
+kiln_deps_install() {
+    local pkgs="$1" missing="" p
+    for p in $pkgs; do
+        dpkg -s "$p" >/dev/null 2>&1 || missing="$missing $p"
+    done
+    [ -z "$missing" ] && return 0
+    if [ "$(id -u)" != 0 ]; then
+        echo "kiln: these Debian packages are missing:$missing" >&2
+        echo "install them as root with:" >&2
+        echo "  apt-get update && apt-get install -y$missing" >&2
+        return 1
+    fi
+    echo "installing:$missing" >&2
+    export DEBIAN_FRONTEND=noninteractive
+    apt-get update -q >/dev/null && apt-get install -y -q $missing >/dev/null
+}
