@@ -27,14 +27,18 @@ struct png_ctx {
 static void png_on_error(png_structp png, png_const_charp msg)
 {
     struct png_ctx *c = png_get_error_ptr(png);
-    kiln_err_set(c->err, c->truncated ? KILN_ETRUNCATED : KILN_ECORRUPT, "PNG %s", msg);
+    kiln_err_set(c->err, c->truncated ? KILN_ETRUNCATED : KILN_ECORRUPT, "%s%s",
+                 strncmp(msg, "PNG", 3) == 0 ? "" : "PNG ", msg);
     longjmp(c->jump, 1);
 }
 
 static void png_on_warning(png_structp png, png_const_charp msg)
 {
-    (void)png;
-    (void)msg; /* benign by libpng's definition (e.g. a bad ancillary chunk it skipped) */
+    /* libpng reports an over-long chunk as a "benign" error and then allocates it anyway (a
+     * 1 GiB tEXt chunk costs 1 GiB); refuse instead. Other warnings are benign (e.g. a bad
+     * ancillary chunk that libpng skipped). */
+    if (strstr(msg, "too large"))
+        png_error(png, msg);
 }
 
 static void png_read_mem(png_structp png, png_bytep out, size_t n)
@@ -51,7 +55,11 @@ static void png_read_mem(png_structp png, png_bytep out, size_t n)
 static int png_probe(const uint8_t *head, size_t len)
 {
     static const uint8_t sig[8] = {0x89, 'P', 'N', 'G', '\r', '\n', 0x1a, '\n'};
-    return len >= 8 && memcmp(head, sig, 8) == 0 ? 100 : 0;
+    if (len >= 8 && memcmp(head, sig, 8) == 0)
+        return 100;
+    /* "PNG" in place but the rest of the signature damaged (typically by a text-mode transfer):
+     * still a PNG, which libpng will reject with the reason. */
+    return len >= 4 && memcmp(head + 1, "PNG", 3) == 0 ? 10 : 0;
 }
 
 static int png_open(struct png_ctx *c, const uint8_t *data, size_t len, struct kiln_err *err)

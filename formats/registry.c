@@ -7,10 +7,14 @@
 
 extern const struct kiln_decoder kiln_decoder_png;
 extern const struct kiln_decoder kiln_decoder_jpeg;
+extern const struct kiln_decoder kiln_decoder_tiff;
+extern const struct kiln_decoder kiln_decoder_pnm;
 
 static const struct kiln_decoder *const decoders[] = {
     &kiln_decoder_png,  /* 8-byte signature */
     &kiln_decoder_jpeg, /* 3-byte SOI + marker prefix */
+    &kiln_decoder_tiff, /* 4-byte byte order + version */
+    &kiln_decoder_pnm,  /* "P1"-"P6" + whitespace: the weakest signature, so the lowest bid */
 };
 
 #define NDECODERS (sizeof decoders / sizeof decoders[0])
@@ -49,10 +53,8 @@ const char *kiln_format_sniff_other(const uint8_t *h, size_t n)
         return "ISO media (HEIF/AVIF)";
     if (n >= 12 && memcmp(h, "\0\0\0\x0cjP  ", 8) == 0)
         return "JPEG 2000";
-    if (n >= 4 && (memcmp(h, "II*\0", 4) == 0 || memcmp(h, "MM\0*", 4) == 0))
-        return "TIFF";
-    if (n >= 2 && h[0] == 'P' && h[1] >= '1' && h[1] <= '7')
-        return "PNM";
+    if (n >= 3 && h[0] == 'P' && h[1] == '7')
+        return "PAM (P7)";
     if (n >= 4 && memcmp(h, "\x8aMNG", 4) == 0)
         return "MNG";
     if (n >= 2 && h[0] == 0xFF && h[1] == 0xD8)
