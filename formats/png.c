@@ -27,8 +27,10 @@ struct png_ctx {
 static void png_on_error(png_structp png, png_const_charp msg)
 {
     struct png_ctx *c = png_get_error_ptr(png);
-    kiln_err_set(c->err, c->truncated ? KILN_ETRUNCATED : KILN_ECORRUPT, "%s%s",
-                 strncmp(msg, "PNG", 3) == 0 ? "" : "PNG ", msg);
+    int code = c->truncated ? KILN_ETRUNCATED : KILN_ECORRUPT;
+    if (strstr(msg, "exceeds user limit"))
+        code = KILN_ETOOLARGE;
+    kiln_err_set(c->err, code, "%s%s", strncmp(msg, "PNG", 3) == 0 ? "" : "PNG ", msg);
     longjmp(c->jump, 1);
 }
 
@@ -143,8 +145,10 @@ static int png_read_info_fn(const uint8_t *data, size_t len, const struct kiln_d
         png_close(&c);
         return err ? err->code : KILN_ECORRUPT;
     }
-    if (lim && lim->max_side)
-        png_set_user_limits(c.png, lim->max_side, lim->max_side);
+    /* PNG allows sides up to 2^31 - 1; libpng's own default limit is lower. The caller checks
+     * its limits on the numbers read here, so only memory-bounding limits are libpng's job. */
+    (void)lim;
+    png_set_user_limits(c.png, 0x7fffffffu, 0x7fffffffu);
     png_read_info(c.png, c.info);
     png_fill_info(&c, info);
     png_close(&c);

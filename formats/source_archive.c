@@ -39,7 +39,7 @@ const char *kiln_archive_library_version(void)
     return archive_version_string();
 }
 
-/* True if any component of a member path is hidden or junk (e.g. "__MACOSX/", "._x.png"). */
+/* "hidden" or "junk" if any component of a member path is (e.g. "__MACOSX/", "._x.png"). */
 static const char *member_skip_kind(const char *name)
 {
     char part[256];
@@ -53,7 +53,10 @@ static const char *member_skip_kind(const char *name)
         if (len < sizeof part) {
             memcpy(part, p, len);
             part[len] = '\0';
-            const char *k = kiln_source_skip_kind(part);
+            /* ".." and "." are path steps, not hidden names: such members are recorded as
+             * they are (and never used to open anything). */
+            const char *k = strcmp(part, "..") && strcmp(part, ".") ? kiln_source_skip_kind(part)
+                                                                     : NULL;
             if (k)
                 return k;
         }
