@@ -13,7 +13,7 @@ rm -rf "$here/demo-data" "$here/demo-out"
 "$here/build/kiln-demo-data" "$here/demo-data"
 echo
 # Shots of one tile share the tile number: the group rule keeps them in one split.
-"$here/build/kiln" build "$here/demo-data" -o "$here/demo-out" \
+"$here/build/kiln" build "$here/demo-data/glaze-tiles" -o "$here/demo-out" \
     --group-regex '/(T[0-9]+)_' --seed 2026 --ratios 70:15:15 --stratify \
     --size 128x128 --fit pad --channels 3
 echo

@@ -14,9 +14,9 @@ cmake -S "$here" -B "$work/clang" -DCMAKE_C_COMPILER=clang -DCMAKE_BUILD_TYPE=De
 cmake --build "$work/clang" -j"$(nproc)" >/dev/null
 "$work/gcc/kiln-demo-data" "$work/data" >/dev/null
 for f in bilinear lanczos3; do
-    "$work/gcc/kiln" build "$work/data" -o "$work/out-gcc-$f" -q --jobs 2 --seed 1 \
+    "$work/gcc/kiln" build "$work/data/glaze-tiles" -o "$work/out-gcc-$f" -q --jobs 2 --seed 1 \
         --group-regex '/(T[0-9]+)_' --size 96x64 --filter "$f" --fit crop
-    "$work/clang/kiln" build "$work/data" -o "$work/out-clang-$f" -q --jobs 1 --seed 1 \
+    "$work/clang/kiln" build "$work/data/glaze-tiles" -o "$work/out-clang-$f" -q --jobs 1 --seed 1 \
         --group-regex '/(T[0-9]+)_' --size 96x64 --filter "$f" --fit crop
     for k in train val test; do
         a=$(sha256sum < "$work/out-gcc-$f/$k.kten") b=$(sha256sum < "$work/out-clang-$f/$k.kten")

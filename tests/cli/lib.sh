@@ -40,7 +40,10 @@ expect_exit() {
     fi
 }
 
-# demo_data DIR: generates the demo data set once per test.
+# demo_data DIR: generates the demo data set; DIR becomes its class-folder root (crawling/,
+# crazing/, pinholing/, sound/), so the folder label rule sees the four classes.
 demo_data() {
-    "$KILN_DEMO" "$1" >/dev/null
+    "$KILN_DEMO" "$1.gen" >/dev/null
+    mv "$1.gen/glaze-tiles" "$1"
+    rmdir "$1.gen"
 }
