@@ -78,6 +78,9 @@ static void mem_unmap(thandle_t h, void *base, toff_t size)
 }
 
 static int on_error(TIFF *tif, void *user, const char *module, const char *fmt, va_list ap)
+    __attribute__((format(printf, 4, 0)));
+
+static int on_error(TIFF *tif, void *user, const char *module, const char *fmt, va_list ap)
 {
     (void)tif;
     struct tiff_mem *m = user;

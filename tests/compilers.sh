@@ -7,10 +7,10 @@ here=$(cd "$(dirname "$0")/.." && pwd)
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 cmake -S "$here" -B "$work/gcc" -DCMAKE_C_COMPILER=gcc -DCMAKE_BUILD_TYPE=Release \
-    -DKILN_TESTS=OFF >/dev/null
+    -DKILN_TESTS=OFF -DKILN_WERROR=ON >/dev/null
 cmake --build "$work/gcc" -j"$(nproc)" >/dev/null
 cmake -S "$here" -B "$work/clang" -DCMAKE_C_COMPILER=clang -DCMAKE_BUILD_TYPE=Debug \
-    -DCMAKE_C_FLAGS_DEBUG=-O0 -DKILN_TESTS=OFF >/dev/null
+    -DCMAKE_C_FLAGS_DEBUG=-O0 -DKILN_TESTS=OFF -DKILN_WERROR=ON >/dev/null
 cmake --build "$work/clang" -j"$(nproc)" >/dev/null
 "$work/gcc/kiln-demo-data" "$work/data" >/dev/null
 for f in bilinear lanczos3; do
