@@ -90,8 +90,9 @@ int kiln_catalog_add(struct kiln_catalog *cat, const struct kiln_item *item, str
     dst->label = intern(cat, item->label);
     dst->group = intern(cat, item->group);
     dst->reason = intern(cat, item->reason);
+    dst->notes = intern(cat, item->notes);
     if (!dst->source || !dst->path || !dst->member || !dst->format || !dst->label ||
-        !dst->group || !dst->reason)
+        !dst->group || !dst->reason || !dst->notes)
         return kiln_err_set(err, KILN_ENOMEM, "cannot store catalogue strings");
     cat->n++;
     return KILN_OK;

@@ -49,6 +49,7 @@ struct kiln_item {
     const char *label;  /* "" when none */
     const char *group;  /* "" when none */
     const char *reason; /* human explanation when status != ok, else "" */
+    const char *notes;  /* facts that do not change pixels ("interlaced; sRGB ignored"), or "" */
     uint64_t size;
     uint64_t phash; /* 64-bit difference hash of the oriented image (docs/split.md) */
     uint64_t unit_key; /* set by split: the keyed hash of the item's unit */

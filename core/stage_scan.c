@@ -305,6 +305,7 @@ static int status_for_code(int code)
 
 struct worker {
     struct scan_run *run;
+    char notes[96];
     struct kiln_image img, oriented, scratch[2];
     struct kiln_resizer rs;
 };
@@ -344,6 +345,8 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
         snprintf(reason, rlen, "%s", e.msg);
         return KILN_OK;
     }
+    snprintf(w->notes, sizeof w->notes, "%s", info.note);
+    it->notes = w->notes;
     it->stored_depth = (uint8_t)info.stored_depth;
     it->orientation = (uint8_t)info.orientation;
     it->pages = (uint16_t)(info.pages > UINT16_MAX ? UINT16_MAX : info.pages);

@@ -12,13 +12,13 @@
 
 enum col {
     C_SOURCE, C_PATH, C_MEMBER, C_SIZE, C_SHA256, C_FORMAT, C_WIDTH, C_HEIGHT, C_CHANNELS,
-    C_DEPTH, C_STORED_DEPTH, C_ORIENTATION, C_PAGES, C_LABEL, C_CLASS, C_GROUP, C_STATUS,
+    C_DEPTH, C_STORED_DEPTH, C_ORIENTATION, C_PAGES, C_NOTES, C_LABEL, C_CLASS, C_GROUP, C_STATUS,
     C_REASON, C_PIXEL_SHA256, C_PHASH, C_UNIT, C_SPLIT, C_COUNT
 };
 
 static const char *const col_names[C_COUNT] = {
     "source", "path", "member", "size", "sha256", "format", "width", "height", "channels",
-    "depth", "stored_depth", "orientation", "pages", "label", "class", "group", "status",
+    "depth", "stored_depth", "orientation", "pages", "notes", "label", "class", "group", "status",
     "reason", "pixel_sha256", "phash", "unit", "split",
 };
 
@@ -51,11 +51,12 @@ int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_
         fprintf(f, ",%" PRIu64 ",%s,", it->size, it->size || ok ? sha : "");
         kiln_csv_field(f, it->format, 1);
         if (img)
-            fprintf(f, ",%u,%u,%u,%u,%u,%u,%u,", it->width, it->height, it->channels, it->depth,
+            fprintf(f, ",%u,%u,%u,%u,%u,%u,%u", it->width, it->height, it->channels, it->depth,
                     it->stored_depth, it->orientation, it->pages);
         else
-            fputs(",,,,,,,,", f);
-        text_field(f, it->label, 1);
+            fputs(",,,,,,,", f);
+        text_field(f, it->notes, 0);
+        text_field(f, it->label, 0);
         if (it->class_index >= 0)
             fprintf(f, ",%" PRId32 ",", it->class_index);
         else
@@ -163,7 +164,7 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
         it.split = KILN_SPLIT_NONE;
         const char *bad = NULL;
         static const int texts[] = {C_SOURCE, C_PATH, C_MEMBER, C_FORMAT, C_LABEL, C_GROUP,
-                                    C_REASON};
+                                    C_REASON, C_NOTES};
         memset(text, 0, sizeof text);
         for (size_t k = 0; k < sizeof texts / sizeof texts[0] && !bad; k++)
             if (kiln_text_unescape(v[texts[k]], &text[texts[k]], NULL) != 0)
@@ -237,6 +238,7 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
         it.label = text[C_LABEL];
         it.group = text[C_GROUP];
         it.reason = text[C_REASON];
+        it.notes = text[C_NOTES];
         rc = kiln_catalog_add(cat, &it, err);
         for (int c = 0; c < C_COUNT; c++)
             free(text[c]);
