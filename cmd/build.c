@@ -28,6 +28,8 @@ static const struct option longopts[] = {
     {"max-side", required_argument, NULL, 0},   {"seed", required_argument, NULL, 0},
     {"ratios", required_argument, NULL, 0},     {"stratify", no_argument, NULL, 0},
     {"mode", required_argument, NULL, 0},       {"size", required_argument, NULL, 0},
+    {"merge-near-duplicates", optional_argument, NULL, 0},
+    {"keep", required_argument, NULL, 0},       {"keep-conflicts", required_argument, NULL, 0},
     {"fit", required_argument, NULL, 0},        {"filter", required_argument, NULL, 0},
     {"channels", required_argument, NULL, 0},   {"depth", required_argument, NULL, 0},
     {"dtype", required_argument, NULL, 0},      {"layout", required_argument, NULL, 0},
@@ -41,14 +43,13 @@ int cmd_build(int argc, char **argv)
     struct kiln_scan_opts so;
     kiln_scan_opts_defaults(&so);
     struct kiln_split_params sp;
-    memset(&sp, 0, sizeof sp);
+    cli_split_defaults(&sp);
     struct kiln_pack_opts po;
     memset(&po, 0, sizeof po);
     kiln_recipe_defaults(&po.recipe);
     struct kiln_err err;
     kiln_err_clear(&err);
-    bool note, quiet = false, seeded = false;
-    kiln_split_parse_ratios("80:10:10", &sp, &note, &err);
+    bool quiet = false, seeded = false;
     unsigned jobs = cli_default_jobs();
     int c, idx;
     while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
@@ -113,10 +114,10 @@ int cmd_build(int argc, char **argv)
                                                           (size_t)nsrc, &so, &srep, &cat));
         if (!quiet)
             cli_print_scan_summary(stdout, &cat, &srep);
-        rc = kiln_units_build(&cat, NULL, &units, &err);
     }
-    if (!rc)
-        rc = kiln_split_assign(&cat, &units, &sp, &sprep, &err);
+    int exit_code = KILN_EXIT_OK;
+    if (!rc && (exit_code = cli_split_catalog(&cat, &sp, &units, &sprep)) != 0)
+        rc = -1; /* already reported */
     if (!rc) {
         json_object_set_new(rec, "split", kiln_split_record(&sp, &units, &sprep));
         po.catalog_record = rec;
@@ -129,8 +130,7 @@ int cmd_build(int argc, char **argv)
         if (!rc && !quiet)
             cli_print_pack_summary(stdout, po.outdir, &po.recipe, &prep, cli_elapsed(&prog));
     }
-    int exit_code = KILN_EXIT_OK;
-    if (rc) {
+    if (rc > 0) {
         cli_error("%s", err.msg);
         exit_code = cli_exit_for(rc);
     }

@@ -39,6 +39,7 @@ int cmd_pack(int argc, char **argv);
 int cmd_build(int argc, char **argv);
 int cmd_verify(int argc, char **argv);
 int cmd_inspect(int argc, char **argv);
+int cmd_audit(int argc, char **argv);
 
 /* "kiln: error: <msg>" / "kiln: warning: <msg>" on stderr. */
 void cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
@@ -71,6 +72,13 @@ int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg)
 int cli_split_option(struct kiln_split_params *p, const char *name, const char *arg);
 int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg);
 
+/* Split parameters with their defaults (80:10:10, exact, no near-duplicate merging). */
+void cli_split_defaults(struct kiln_split_params *p);
+/* Loads --keep (if given), runs the split over cat and reports problems; returns an exit
+ * code. Shared by split and build. */
+int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
+                      struct kiln_units *units, struct kiln_split_report *rep);
+
 /* Help text of each option group, shared by the commands that take it. */
 extern const char cli_scan_help[], cli_split_help[], cli_recipe_help[];
 
@@ -82,6 +90,11 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
 struct kiln_pack_report;
 void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recipe *r,
                             const struct kiln_pack_report *rep, double seconds);
+
+/* Prints audit findings (each with its items and splits) and missing classes. */
+struct kiln_audit;
+void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
+                     bool quiet);
 
 /* The path of the JSON record that sits beside a catalogue ("x.csv" -> "x.json"); malloc'ed. */
 char *cli_catalog_record_path(const char *catalog_csv);

@@ -8,7 +8,10 @@
 #include <unistd.h>
 
 #include "../core/recipe.h"
+#include "../core/audit.h"
+#include "../core/checked.h"
 #include "../core/stage_pack.h"
+#include "../formats/keep.h"
 #include "../core/version.h"
 #include "cmd.h"
 
@@ -21,6 +24,7 @@ static const struct {
     {"split", cmd_split, "assign train/validation/test splits to a catalogue"},
     {"pack", cmd_pack, "decode, resize and write tensor files, statistics and a manifest"},
     {"build", cmd_build, "scan, split and pack in one run"},
+    {"audit", cmd_audit, "report groups, duplicates and near duplicates that span splits"},
     {"verify", cmd_verify, "re-check every checksum of a packed output folder"},
     {"inspect", cmd_inspect, "show the header, arrays and statistics of a .kten file"},
 };
@@ -203,7 +207,15 @@ const char cli_split_help[] =
     "                       (default 80:10:10)\n"
     "  --stratify           keep class proportions in every split\n"
     "  --mode MODE          exact (default: sizes as close to the ratios as whole units\n"
-    "                       allow) or stable (a unit's split depends on its own key only)\n";
+    "                       allow) or stable (a unit's split depends on its own key only)\n"
+    "  --merge-near-duplicates[=BITS]\n"
+    "                       also keep together images whose difference hashes differ in at\n"
+    "                       most BITS bits (default 6, at most 16)\n"
+    "  --keep MANIFEST      items packed in that earlier output keep their split; new items\n"
+    "                       are dealt by the mode\n"
+    "  --keep-conflicts test\n"
+    "                       a unit joining two old splits goes to the later one (train <\n"
+    "                       val < test) instead of stopping with an error\n";
 
 const char cli_recipe_help[] =
     "  --size WxH | S       output image size (required)\n"
@@ -287,6 +299,28 @@ int cli_split_option(struct kiln_split_params *p, const char *name, const char *
         p->stratify = true;
         return 1;
     }
+    if (strcmp(name, "merge-near-duplicates") == 0) {
+        char *end;
+        long v = arg ? strtol(arg, &end, 10) : 6;
+        if (arg && (!*arg || *end || v < 0 || v > 16)) {
+            cli_error("bad --merge-near-duplicates '%s': use a number of bits from 0 to 16", arg);
+            return -1;
+        }
+        p->near_bits = (int)v;
+        return 1;
+    }
+    if (strcmp(name, "keep") == 0) {
+        p->keep_manifest = arg;
+        return 1;
+    }
+    if (strcmp(name, "keep-conflicts") == 0) {
+        if (strcmp(arg, "test") != 0 && strcmp(arg, "error") != 0) {
+            cli_error("bad --keep-conflicts '%s': use test (or error, the default)", arg);
+            return -1;
+        }
+        p->keep_to_test = strcmp(arg, "test") == 0;
+        return 1;
+    }
     if (strcmp(name, "mode") == 0) {
         int m = kiln_split_mode_parse(arg);
         if (m < 0) {
@@ -345,6 +379,56 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
     }
 }
 
+void cli_split_defaults(struct kiln_split_params *p)
+{
+    struct kiln_err e;
+    bool note;
+    memset(p, 0, sizeof *p);
+    p->near_bits = -1;
+    kiln_split_parse_ratios("80:10:10", p, &note, &e);
+}
+
+int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
+                      struct kiln_units *units, struct kiln_split_report *rep)
+{
+    struct kiln_err err;
+    kiln_err_clear(&err);
+    struct kiln_keep keep = {0};
+    int8_t *old = NULL;
+    int rc = KILN_OK;
+    if (p->keep_manifest) {
+        rc = kiln_keep_load(p->keep_manifest, &keep, &err);
+        old = rc ? NULL : kiln_alloc_array(cat->n ? cat->n : 1, 1);
+        if (!rc && !old)
+            rc = kiln_err_set(&err, KILN_ENOMEM, "out of memory");
+        if (!rc) {
+            kiln_keep_map(&keep, cat, old);
+            memcpy(p->keep_sha256, keep.manifest_sha256, sizeof p->keep_sha256);
+            p->old_split = old;
+        }
+        kiln_keep_free(&keep);
+    }
+    if (!rc)
+        rc = kiln_split_run(cat, p, units, rep, &err);
+    if (!rc && old && rep->moved_items) {
+        cli_warn("%zu items move from their old split (--keep-conflicts test):",
+                 rep->moved_items);
+        for (size_t i = 0; i < cat->n; i++)
+            if (old[i] >= 0 && old[i] != cat->items[i].split)
+                fprintf(stderr, "  %s/%s%s%s: %s -> %s\n", cat->items[i].source,
+                        cat->items[i].path, cat->items[i].member[0] ? ":" : "",
+                        cat->items[i].member, kiln_split_name(old[i]),
+                        kiln_split_name(cat->items[i].split));
+    }
+    p->old_split = NULL; /* freed below; the record needs only keep_manifest and its digest */
+    free(old);
+    if (rc) {
+        cli_error("%s", err.msg);
+        return cli_exit_for_input(rc);
+    }
+    return KILN_EXIT_OK;
+}
+
 char *cli_catalog_record_path(const char *csv)
 {
     size_t n = strlen(csv);
@@ -376,9 +460,53 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
         if (kiln_stats_summarize(&rep->stats[KILN_SPLIT_TRAIN].ch[c], maxv, &u, &e) == 0)
             fprintf(f, "  channel %u: mean %.6f  std %.6f\n", c, u.mean, u.std_pop);
     }
+    if (rep->leaks)
+        cli_warn("the audit found %zu groups or duplicates spanning splits (manifest.json "
+                 "\"audit\"; kiln audit %s lists them)",
+                 rep->leaks, outdir);
+    if (rep->missing_classes)
+        cli_warn("%zu classes are missing from a split (manifest.json \"audit\")",
+                 rep->missing_classes);
     if (rep->skipped)
         fprintf(f, "%zu catalogue rows not packed (see manifest.json \"skipped\")\n",
                 rep->skipped);
     fprintf(f, "%zu records in %.2f s (%.0f images/s); manifest: %s/manifest.json\n", total,
             seconds, seconds > 0 ? (double)total / seconds : 0.0, outdir);
+}
+
+void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
+                     bool quiet)
+{
+    for (size_t l = 0; l < a->nleaks; l++) {
+        const struct kiln_leak *lk = &a->leaks[l];
+        const struct kiln_item *first = &cat->items[a->items[lk->first]];
+        fprintf(f, "LEAK %s", kiln_leak_kind_name(lk->kind));
+        if (lk->kind == KILN_LEAK_GROUP)
+            fprintf(f, " '%s'", first->group);
+        fputs(":\n", f);
+        for (size_t k = 0; k < lk->count; k++) {
+            const struct kiln_item *it = &cat->items[a->items[lk->first + k]];
+            char rel[4096];
+            kiln_item_relname(it->path, it->member, rel, sizeof rel);
+            fprintf(f, "  %-5s %s/%s\n", kiln_split_name(it->split), it->source, rel);
+        }
+    }
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        for (size_t c = 0; c < a->nclasses; c++)
+            if (a->missing[(size_t)s * a->nclasses + c])
+                cli_warn("class '%s' has no item in the %s split", cat->classes[c],
+                         kiln_split_name(s));
+    if (!quiet) {
+        char near[64] = "";
+        if (a->near_bits >= 0)
+            snprintf(near, sizeof near, ", near duplicates within %d bits", a->near_bits);
+        if (a->nleaks)
+            fprintf(f, "%zu findings span two splits: %zu groups, %zu identical files, %zu identical "
+                       "pictures, %zu near-duplicate pairs\n",
+                    a->nleaks, a->per_kind[KILN_LEAK_GROUP], a->per_kind[KILN_LEAK_BYTES],
+                    a->per_kind[KILN_LEAK_PIXELS], a->per_kind[KILN_LEAK_NEAR]);
+        else
+            fprintf(f, "audit: nothing spans two splits (groups, identical files and pictures%s)\n",
+                    near);
+    }
 }

@@ -4,6 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../core/audit.h"
 #include "../core/stage_record.h"
 #include "../formats/catalog_csv.h"
 #include "../formats/manifest.h"
@@ -28,16 +29,17 @@ static const struct option longopts[] = {
     {"output", required_argument, NULL, 'o'}, {"quiet", no_argument, NULL, 'q'},
     {"help", no_argument, NULL, 'h'},         {"seed", required_argument, NULL, 0},
     {"ratios", required_argument, NULL, 0},   {"stratify", no_argument, NULL, 0},
-    {"mode", required_argument, NULL, 0},     {NULL, 0, NULL, 0},
+    {"mode", required_argument, NULL, 0},     {"merge-near-duplicates", optional_argument, NULL, 0},
+    {"keep", required_argument, NULL, 0},     {"keep-conflicts", required_argument, NULL, 0},
+    {NULL, 0, NULL, 0},
 };
 
 int cmd_split(int argc, char **argv)
 {
     struct kiln_split_params p;
-    memset(&p, 0, sizeof p);
-    bool seeded = false, quiet = false, note;
+    cli_split_defaults(&p);
+    bool seeded = false, quiet = false;
     struct kiln_err err;
-    kiln_split_parse_ratios("80:10:10", &p, &note, &err);
     const char *output = NULL;
     int c, idx;
     while ((c = getopt_long(argc, argv, "o:qh", longopts, &idx)) != -1) {
@@ -74,15 +76,11 @@ int cmd_split(int argc, char **argv)
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report rep;
-    if (!rc)
-        rc = kiln_units_build(&cat, NULL, &units, &err);
-    if (!rc)
-        rc = kiln_split_assign(&cat, &units, &p, &rep, &err);
-    if (rc) {
-        cli_error("%s", err.msg);
+    int code = cli_split_catalog(&cat, &p, &units, &rep);
+    if (code) {
         kiln_units_free(&units);
         kiln_catalog_free(&cat);
-        return cli_exit_for(rc);
+        return code;
     }
     char *in_rec = cli_catalog_record_path(input), *out_rec = cli_catalog_record_path(output);
     json_t *rec = NULL;
@@ -95,7 +93,12 @@ int cmd_split(int argc, char **argv)
     if (!rec)
         rec = json_object();
     json_object_set_new(rec, "catalog", json_string(output));
-    json_object_set_new(rec, "split", kiln_split_record(&p, &units, &rep));
+    json_t *srec = kiln_split_record(&p, &units, &rep);
+    struct kiln_audit audit;
+    bool audited = kiln_audit_run(&cat, p.near_bits >= 0 ? p.near_bits : 6, NULL, &audit, &err) == 0;
+    if (audited)
+        json_object_set_new(srec, "audit", kiln_audit_record(&audit, &cat));
+    json_object_set_new(rec, "split", srec);
     rc = kiln_catalog_csv_save(output, &cat, &err);
     if (!rc)
         rc = out_rec ? kiln_json_save(out_rec, rec, &err) : kiln_err_set(&err, KILN_ENOMEM, "oom");
@@ -113,9 +116,14 @@ int cmd_split(int argc, char **argv)
             if (s != KILN_SPLIT_VAL || p.nparts == 3)
                 printf("  %-5s %zu items in %zu units\n", kiln_split_name(s), rep.items[s],
                        rep.units_per_split[s]);
-        if (units.merged_bytes || units.merged_pixels || units.merged_groups)
-            printf("kept together: %zu by group, %zu identical files, %zu identical pixels\n",
-                   units.merged_groups, units.merged_bytes, units.merged_pixels);
+        if (units.merged_bytes || units.merged_pixels || units.merged_groups || units.merged_near)
+            printf("kept together: %zu by group, %zu identical files, %zu identical pixels, %zu "
+                   "near duplicates\n",
+                   units.merged_groups, units.merged_bytes, units.merged_pixels,
+                   units.merged_near);
+        if (p.keep_manifest)
+            printf("kept from %s: %zu items in %zu units\n", p.keep_manifest, rep.kept_items,
+                   rep.kept_units);
         if (rep.mixed_units)
             cli_warn("%zu units hold items of more than one label", rep.mixed_units);
         if (rep.oversized_units)
@@ -126,6 +134,11 @@ int cmd_split(int argc, char **argv)
         if (had_split)
             printf("(the catalogue's previous split was replaced)\n");
         printf("split catalogue written to %s\n", output);
+    }
+    if (audited) {
+        if (exit_code == KILN_EXIT_OK)
+            cli_print_audit(stdout, &audit, &cat, quiet);
+        kiln_audit_free(&audit);
     }
     json_decref(rec);
     free(in_rec);

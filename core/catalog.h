@@ -63,6 +63,7 @@ struct kiln_item {
     uint8_t orientation;     /* EXIF orientation as stored (1-8) */
     uint8_t status;
     uint8_t has_pixels; /* phash and pixel_sha256 are valid */
+    uint8_t has_sha;    /* the bytes were read and sha256 is valid (also for empty files) */
     int8_t split;       /* KILN_SPLIT_NONE until split */
 };
 

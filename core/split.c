@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "checked.h"
+#include "neardup.h"
 #include "sha256.h"
 
 static const char *const mode_names[] = {"exact", "stable"};
@@ -178,15 +179,87 @@ static int cmp_order(const void *a, const void *b)
     return (x->tielen > y->tielen) - (x->tielen < y->tielen);
 }
 
+/* Names an item for messages: "source/path[:member]". */
+static void item_label(const struct kiln_item *it, char *buf, size_t len)
+{
+    if (it->member[0])
+        snprintf(buf, len, "%s/%s:%s", it->source, it->path, it->member);
+    else
+        snprintf(buf, len, "%s/%s", it->source, it->path);
+}
+
+/* Sets kept[u] to the split a unit keeps from an earlier output, or KILN_SPLIT_NONE. */
+static int keep_units(const struct kiln_catalog *cat, const struct kiln_units *units,
+                      const struct kiln_split_params *p, int8_t *kept, struct kiln_err *err)
+{
+    const size_t nu = units->nunits;
+    uint32_t (*first)[KILN_NSPLITS] = kiln_alloc_array(nu, sizeof *first);
+    uint8_t *mask = calloc(nu ? nu : 1, 1);
+    if (!first || !mask) {
+        free(first);
+        free(mask);
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate keep tables");
+    }
+    for (size_t i = 0; i < cat->n; i++) {
+        uint32_t u = units->unit_of[i];
+        int s = p->old_split[i];
+        if (u == KILN_NO_UNIT || s < 0 || s >= KILN_NSPLITS)
+            continue;
+        if (!(mask[u] & (1u << s)))
+            first[u][s] = (uint32_t)i;
+        mask[u] |= (uint8_t)(1u << s);
+    }
+    int rc = KILN_OK;
+    for (size_t u = 0; u < nu && !rc; u++) {
+        kept[u] = KILN_SPLIT_NONE;
+        if (!mask[u])
+            continue;
+        int lo = -1, hi = -1;
+        for (int s = 0; s < KILN_NSPLITS; s++)
+            if (mask[u] & (1u << s)) {
+                if (lo < 0)
+                    lo = s;
+                hi = s;
+            }
+        if (lo != hi && !p->keep_to_test) {
+            char a[600], b[600];
+            item_label(&cat->items[first[u][lo]], a, sizeof a);
+            item_label(&cat->items[first[u][hi]], b, sizeof b);
+            rc = kiln_err_set(err, KILN_EINVAL,
+                              "%s (old split %s) and %s (old split %s) are now one unit (same "
+                              "group or duplicate content); use --keep-conflicts test to move "
+                              "the unit to the later split",
+                              a, kiln_split_name(lo), b, kiln_split_name(hi));
+        }
+        kept[u] = (int8_t)hi; /* the latest split: train < val < test */
+    }
+    free(first);
+    free(mask);
+    return rc;
+}
+
 int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
                       const struct kiln_split_params *p, struct kiln_split_report *rep,
                       struct kiln_err *err)
 {
     memset(rep, 0, sizeof *rep);
     const size_t nu = units->nunits;
+    int8_t *kept = NULL;
+    if (p->old_split) {
+        kept = kiln_alloc_array(nu ? nu : 1, 1);
+        if (!kept)
+            return kiln_err_set(err, KILN_ENOMEM, "cannot allocate keep tables");
+        int rc = keep_units(cat, units, p, kept, err);
+        if (rc) {
+            free(kept);
+            return rc;
+        }
+    }
     struct order_ctx_entry *ord = kiln_alloc_array(nu, sizeof *ord);
-    if (!ord)
+    if (!ord) {
+        free(kept);
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate the split order for %zu units", nu);
+    }
     for (size_t u = 0; u < nu; u++) {
         struct kiln_unit *un = &units->units[u];
         const struct kiln_item *id = &cat->items[un->id_item];
@@ -196,6 +269,7 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
         int rc = kiln_split_unit_key(p->seed, un->id_kind, bytes, len, &un->key, err);
         if (rc) {
             free(ord);
+            free(kept);
             return rc;
         }
         ord[u] = (struct order_ctx_entry){p->stratify ? un->stratum : 0, un->key, (uint32_t)u,
@@ -212,6 +286,10 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
          * a fraction of 2^64, so a unit's split depends on its own key alone. */
         for (size_t u = 0; u < nu; u++) {
             struct kiln_unit *un = &units->units[u];
+            if (kept && kept[u] >= 0) {
+                un->split = kept[u];
+                continue;
+            }
             unsigned __int128 lhs = (unsigned __int128)un->key * R, cum = 0;
             un->split = KILN_SPLIT_TEST;
             for (int s = 0; s < KILN_NSPLITS; s++) {
@@ -233,8 +311,17 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
             /* Deal in key order to the split with the largest remaining deficit
              * r_s * N - C_s * R (exact integers); ties go to the earlier split. */
             __int128 count[KILN_NSPLITS] = {0, 0, 0};
+            for (size_t k = i; kept && k < j; k++) {
+                struct kiln_unit *un = &units->units[ord[k].unit];
+                if (kept[ord[k].unit] >= 0) {
+                    un->split = kept[ord[k].unit];
+                    count[un->split] += un->size;
+                }
+            }
             for (size_t k = i; k < j; k++) {
                 struct kiln_unit *un = &units->units[ord[k].unit];
+                if (kept && kept[ord[k].unit] >= 0)
+                    continue;
                 int best = -1;
                 __int128 best_d = 0;
                 for (int s = 0; s < KILN_NSPLITS; s++) {
@@ -256,8 +343,14 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
         }
     }
     free(ord);
-    for (size_t u = 0; u < nu; u++)
+    for (size_t u = 0; u < nu; u++) {
         rep->units_per_split[units->units[u].split]++;
+        if (kept && kept[u] >= 0) {
+            rep->kept_units++;
+            rep->kept_items += units->units[u].size;
+        }
+    }
+    free(kept);
     for (size_t i = 0; i < cat->n; i++) {
         struct kiln_item *it = &cat->items[i];
         uint32_t u = units->unit_of[i];
@@ -269,6 +362,42 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
         it->split = units->units[u].split;
         it->unit_key = units->units[u].key;
         rep->items[it->split]++;
+        if (p->old_split && p->old_split[i] >= 0 && p->old_split[i] != it->split)
+            rep->moved_items++;
     }
     return KILN_OK;
+}
+
+int kiln_split_run(struct kiln_catalog *cat, const struct kiln_split_params *p,
+                   struct kiln_units *units, struct kiln_split_report *rep, struct kiln_err *err)
+{
+    struct kiln_pairs near = {NULL, 0, 0};
+    int rc = KILN_OK;
+    if (p->near_bits >= 0) {
+        /* Only ok items with a difference hash take part; map compact indices back. */
+        uint64_t *hash = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *hash);
+        uint32_t *item = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *item);
+        size_t n = 0;
+        if (!hash || !item)
+            rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate %zu hashes", cat->n);
+        for (size_t i = 0; !rc && i < cat->n; i++)
+            if (cat->items[i].status == KILN_ST_OK && cat->items[i].has_pixels) {
+                hash[n] = cat->items[i].phash;
+                item[n++] = (uint32_t)i;
+            }
+        if (!rc)
+            rc = kiln_neardup_pairs(hash, n, (unsigned)p->near_bits, &near, err);
+        for (size_t k = 0; !rc && k < near.n; k++) {
+            near.pair[k][0] = item[near.pair[k][0]];
+            near.pair[k][1] = item[near.pair[k][1]];
+        }
+        free(hash);
+        free(item);
+    }
+    if (!rc)
+        rc = kiln_units_build(cat, p->near_bits >= 0 ? &near : NULL, units, err);
+    kiln_pairs_free(&near);
+    if (!rc)
+        rc = kiln_split_assign(cat, units, p, rep, err);
+    return rc;
 }

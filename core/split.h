@@ -23,6 +23,13 @@ struct kiln_split_params {
     unsigned nparts;              /* 2 (train:test) or 3 (train:val:test) as written */
     int mode;
     bool stratify;
+    int near_bits; /* --merge-near-duplicates radius, -1 when off */
+    /* --keep: per catalogue item its split in an earlier output, KILN_SPLIT_NONE when new; NULL
+     * without --keep. keep_to_test resolves units that join two old splits (docs/split.md). */
+    const int8_t *old_split;
+    bool keep_to_test;
+    const char *keep_manifest; /* for the record: the old manifest's path and SHA-256 */
+    char keep_sha256[KILN_SHA256_HEX];
 };
 
 /* Parses "80:10:10", "70:30", "0.8:0.1:0.1" or "80%:20%". Parts with a decimal point or a
@@ -43,12 +50,20 @@ struct kiln_split_report {
     size_t items[KILN_NSPLITS];
     size_t units_per_split[KILN_NSPLITS];
     size_t oversized_units; /* units larger than their stratum's target for the split they got */
+    size_t kept_units, kept_items; /* units and items placed by --keep */
+    size_t moved_items;            /* old items whose split changed (conflicts resolved) */
 };
 
 /* Assigns every unit (keys first) and copies the split and unit key to each item of cat.
- * Items outside any unit get KILN_SPLIT_NONE. */
+ * Items outside any unit get KILN_SPLIT_NONE. With p->old_split, a unit whose old items name two
+ * splits is an error naming two of them (KILN_EINVAL), unless p->keep_to_test. */
 int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
                       const struct kiln_split_params *p, struct kiln_split_report *rep,
                       struct kiln_err *err);
+
+/* The whole split stage over memory: near-duplicate pairs (when p->near_bits >= 0), units,
+ * assignment. units is filled and owned by the caller (kiln_units_free). */
+int kiln_split_run(struct kiln_catalog *cat, const struct kiln_split_params *p,
+                   struct kiln_units *units, struct kiln_split_report *rep, struct kiln_err *err);
 
 #endif

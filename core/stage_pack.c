@@ -22,7 +22,9 @@
 #include "../formats/manifest.h"
 #include "../formats/outfile.h"
 #include "../formats/source.h"
+#include "audit.h"
 #include "checked.h"
+#include "stage_record.h"
 #include "prepare.h"
 #include "queue.h"
 #include "sha256.h"
@@ -571,7 +573,7 @@ static int write_items_csv(struct pack_run *run, const char *path, struct kiln_e
                 continue;
             const struct kiln_item *it = &cat->items[i];
             char sha[KILN_SHA256_HEX] = "", num[32];
-            if (it->size || it->status == KILN_ST_OK)
+            if (it->has_sha || it->status == KILN_ST_OK)
                 kiln_sha256_hex(it->sha256, sha);
             snprintf(num, sizeof num, "%zu", row++);
             kiln_csv_field(f, num, 1);
@@ -1022,6 +1024,17 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         json_object_set_new(manifest, "counts", counts);
         json_object_set_new(manifest, "statistics", json_incref(stats_all));
         json_object_set_new(manifest, "dct_reduced_items", json_integer((json_int_t)rep->dct_reduced));
+        /* The audit checks near duplicates at the radius the split merged, else the default. */
+        const json_t *nb = json_object_get(split_rec, "merge_near_duplicates");
+        struct kiln_audit audit;
+        rc = kiln_audit_run(cat, json_is_integer(nb) ? (int)json_integer_value(nb) : 6,
+                            rep->present, &audit, err);
+        if (!rc) {
+            json_object_set_new(manifest, "audit", kiln_audit_record(&audit, cat));
+            rep->leaks = audit.nleaks;
+            rep->missing_classes = audit.missing_count;
+            kiln_audit_free(&audit);
+        }
         json_t *outputs = json_array();
         json_object_set_new(manifest, "outputs", outputs);
         json_object_set_new(manifest, "skipped", skipped_json(cat));

@@ -31,6 +31,7 @@ struct kiln_pack_report {
     size_t dct_reduced;          /* items decoded at a reduced scale */
     uint64_t bytes_read;
     size_t skipped;              /* catalogue rows not packed (not ok, or no split) */
+    size_t leaks, missing_classes; /* audit findings recorded in the manifest */
 };
 
 /* Packs cat (loaded, classes indexed, split assigned) into o->outdir. The folder is created if

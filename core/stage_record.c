@@ -5,6 +5,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "audit.h"
+#include "stage_scan.h"
 #include "textesc.h"
 #include "version.h"
 
@@ -67,10 +69,25 @@ json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_u
     json_object_set_new(j, "parts", json_integer(p->nparts));
     json_object_set_new(j, "mode", json_string(kiln_split_mode_name(p->mode)));
     json_object_set_new(j, "stratify", json_boolean(p->stratify));
+    json_object_set_new(j, "merge_near_duplicates",
+                        p->near_bits >= 0 ? json_integer(p->near_bits) : json_null());
+    if (p->keep_manifest) {
+        json_t *k = json_object();
+        json_object_set_new(k, "manifest", text(p->keep_manifest ? p->keep_manifest : ""));
+        json_object_set_new(k, "manifest_sha256", json_string(p->keep_sha256));
+        json_object_set_new(k, "conflicts", json_string(p->keep_to_test ? "test" : "error"));
+        json_object_set_new(k, "kept_units", json_integer((json_int_t)rep->kept_units));
+        json_object_set_new(k, "kept_items", json_integer((json_int_t)rep->kept_items));
+        json_object_set_new(k, "moved_items", json_integer((json_int_t)rep->moved_items));
+        json_object_set_new(j, "keep", k);
+    } else {
+        json_object_set_new(j, "keep", json_null());
+    }
     json_object_set_new(j, "units", json_integer((json_int_t)rep->units));
     json_object_set_new(j, "merged_by_group", json_integer((json_int_t)u->merged_groups));
     json_object_set_new(j, "merged_by_bytes", json_integer((json_int_t)u->merged_bytes));
     json_object_set_new(j, "merged_by_pixels", json_integer((json_int_t)u->merged_pixels));
+    json_object_set_new(j, "merged_by_near_duplicates", json_integer((json_int_t)u->merged_near));
     json_object_set_new(j, "mixed_label_units", json_integer((json_int_t)rep->mixed_units));
     json_object_set_new(j, "oversized_units", json_integer((json_int_t)rep->oversized_units));
     json_t *items = json_object();
@@ -106,5 +123,51 @@ int kiln_split_params_from_record(const json_t *split, struct kiln_split_params 
     if (p->mode < 0)
         return kiln_err_set(err, KILN_EINVAL, "bad recorded mode '%s'", mode);
     p->stratify = json_is_true(json_object_get(split, "stratify"));
+    const json_t *near = json_object_get(split, "merge_near_duplicates");
+    p->near_bits = json_is_integer(near) ? (int)json_integer_value(near) : -1;
     return KILN_OK;
+}
+
+#define AUDIT_LISTED 100
+
+json_t *kiln_audit_record(const struct kiln_audit *a, const struct kiln_catalog *cat)
+{
+    json_t *j = json_object();
+    json_object_set_new(j, "near_duplicate_bits",
+                        a->near_bits >= 0 ? json_integer(a->near_bits) : json_null());
+    json_object_set_new(j, "clean", json_boolean(a->nleaks == 0));
+    json_t *counts = json_object();
+    for (int k = 0; k < KILN_LEAK_KINDS; k++)
+        json_object_set_new(counts, kiln_leak_kind_name(k), json_integer((json_int_t)a->per_kind[k]));
+    json_object_set_new(j, "spanning_splits", counts);
+    json_t *missing = json_array();
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        for (size_t c = 0; c < a->nclasses; c++)
+            if (a->missing[(size_t)s * a->nclasses + c]) {
+                json_t *m = json_object();
+                json_object_set_new(m, "split", json_string(kiln_split_name(s)));
+                json_object_set_new(m, "class", text(cat->classes[c]));
+                json_array_append_new(missing, m);
+            }
+    json_object_set_new(j, "classes_missing", missing);
+    json_t *list = json_array();
+    for (size_t l = 0; l < a->nleaks && l < AUDIT_LISTED; l++) {
+        json_t *f = json_object(), *items = json_array();
+        json_object_set_new(f, "kind", json_string(kiln_leak_kind_name(a->leaks[l].kind)));
+        for (size_t k = 0; k < a->leaks[l].count; k++) {
+            const struct kiln_item *it = &cat->items[a->items[a->leaks[l].first + k]];
+            char rel[4096];
+            kiln_item_relname(it->path, it->member, rel, sizeof rel);
+            json_t *o = json_object();
+            json_object_set_new(o, "name", text(rel));
+            json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));
+            json_array_append_new(items, o);
+        }
+        json_object_set_new(f, "items", items);
+        json_array_append_new(list, f);
+    }
+    json_object_set_new(j, "findings", list);
+    json_object_set_new(j, "findings_not_listed",
+                        json_integer((json_int_t)(a->nleaks > AUDIT_LISTED ? a->nleaks - AUDIT_LISTED : 0)));
+    return j;
 }

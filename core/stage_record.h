@@ -18,4 +18,9 @@ json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_u
 int kiln_split_params_from_record(const json_t *split, struct kiln_split_params *p,
                                   struct kiln_err *err);
 
+/* The audit result for manifest.json and catalog.json: counts per kind, the classes missing
+ * from a split, and the findings (at most 100, each with its items' names and splits). */
+struct kiln_audit;
+json_t *kiln_audit_record(const struct kiln_audit *a, const struct kiln_catalog *cat);
+
 #endif

@@ -435,6 +435,7 @@ static int process(struct worker *w, struct job *j)
         rc = kiln_sha256_buf(j->data, j->size, it.sha256, &e);
         if (rc)
             return kiln_err_set(&run->err, rc, "%s", e.msg);
+        it.has_sha = 1;
     }
     if (it.status == KILN_ST_OK) {
         if (j->size == 0) {

@@ -48,7 +48,7 @@ int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_
         text_field(f, it->source, 1);
         text_field(f, it->path, 0);
         text_field(f, it->member, 0);
-        fprintf(f, ",%" PRIu64 ",%s,", it->size, it->size || ok ? sha : "");
+        fprintf(f, ",%" PRIu64 ",%s,", it->size, it->has_sha || ok ? sha : "");
         kiln_csv_field(f, it->format, 1);
         if (img)
             fprintf(f, ",%u,%u,%u,%u,%u,%u,%u", it->width, it->height, it->channels, it->depth,
@@ -178,6 +178,7 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
             bad = "status";
         if (!bad && v[C_SHA256][0] && kiln_sha256_parse(v[C_SHA256], it.sha256))
             bad = "sha256";
+        it.has_sha = v[C_SHA256][0] != 0;
         if (!bad && st == KILN_ST_OK && !v[C_SHA256][0])
             bad = "sha256";
         if (!bad && v[C_WIDTH][0]) {

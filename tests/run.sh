@@ -12,7 +12,7 @@ if [ "${1:-}" = "--sanitize" ]; then
     dir=build-san
     flags=(-DKILN_SANITIZE=address,undefined -DCMAKE_BUILD_TYPE=Debug)
 fi
-cmake -S "$here" -B "$here/$dir" -DKILN_WERROR=ON "${flags[@]}" >/dev/null
+cmake -S "$here" -B "$here/$dir" -DKILN_WERROR=ON -DKILN_TESTS=ON "${flags[@]}" >/dev/null
 cmake --build "$here/$dir" -j"$(nproc)"
 cd "$here/$dir"
 ctest --output-on-failure -j"$(nproc)"

@@ -1,0 +1,71 @@
+/* Near-duplicate search: every pair of 64-bit difference hashes within a Hamming radius, found
+ * exactly (the same pairs as an all-pairs comparison) with multi-index hashing (Norouzi, Punjani
+ * and Fleet, "Fast Search in Hamming Space with Multi-Index Hashing", CVPR 2012). The pairs feed
+ * the near-duplicate rule of the split (docs/split.md, section 2 item 4) through struct
+ * kiln_pairs (units.h).
+ *
+ * Method. The 64 bits are cut into m = radius + 1 contiguous substrings, numbered t = 0..m-1
+ * from the most significant bit (the first bit of a difference hash, docs/split.md section 7).
+ * With 64 = q*m + e (0 <= e < m), substrings 0..e-1 have q + 1 bits and e..m-1 have q bits, so
+ * substring t starts at bit offset t*q + min(t, e) counted from the most significant bit
+ * (kiln_neardup_substrings returns the table). Two hashes within distance radius differ in at
+ * most radius substrings, so by the pigeonhole principle they agree exactly on at least one of
+ * the m substrings. One table at a time, the items are counting-sorted by the value of substring
+ * t; inside each bucket of equal values every pair is verified with a popcount of the XOR. A
+ * pair is reported only by the first table where it agrees (the smallest t with equal substring
+ * t), so no memory is needed to remove duplicates. The result is sorted by (i, j).
+ *
+ * Cost. Sorting is O(m n) time; verification is the sum over buckets of k(k-1)/2 comparisons,
+ * which for uniformly random hashes is about n^2/2 * sum_t 2^-len_t (len_t = bits of substring
+ * t): n^2/32 768 at radius 3, n^2/158 at the default radius 6, n^2/10 at radius 10, n^2/2 (as
+ * many as brute force) at radius 15 and n^2/1.5 at radius 16. So it is linear only while
+ * buckets stay small (n up to about 2^len_t) and otherwise a fixed fraction of brute force,
+ * which shrinks quickly as the radius falls. A cluster of k identical hashes is one bucket in every table and yields
+ * k(k-1)/2 pairs: that output is inherent in listing every pair, and it costs m times as many
+ * comparisons (each table sees the cluster; only table 0 reports it). Memory is O(n) working
+ * space (about 24 bytes per participating item, 36 at radius 0..2) plus the output. */
+#ifndef KILN_NEARDUP_H
+#define KILN_NEARDUP_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "err.h"
+#include "units.h"
+
+#define KILN_NEARDUP_MAX_RADIUS 16    /* so at most 17 substrings of at least 3 bits */
+#define KILN_NEARDUP_DEFAULT_RADIUS 6 /* --merge-near-duplicates without a value */
+
+/* Appends to out every unordered pair (i, j), i < j < n, with Hamming distance
+ * popcount(hash[i] ^ hash[j]) <= radius, as out->pair[k] = {i, j}. The appended pairs are
+ * sorted by i, then j, and each appears once; pairs already in out are left as they were (not
+ * re-sorted, not merged with the new ones). out may start as {0} (empty); its buffer is grown
+ * with realloc, so it must be NULL or come from malloc (release it with kiln_pairs_free).
+ * hash may be NULL when n is 0. The function only reads hash and keeps no reference to it.
+ *
+ * Errors: KILN_EINVAL when radius > KILN_NEARDUP_MAX_RADIUS, n > UINT32_MAX (indices are
+ * uint32_t), or out (or hash with n > 0) is NULL; KILN_ENOMEM when working space or the output
+ * cannot be allocated or its size overflows. On error out->n is restored to its value on entry
+ * (out->pair and out->cap may have changed) and err, if not NULL, holds the message. */
+int kiln_neardup_pairs(const uint64_t *hash, size_t n, unsigned radius, struct kiln_pairs *out,
+                       struct kiln_err *err);
+
+/* As kiln_neardup_pairs, but only items with use[i] != 0 take part (catalogue rows without a
+ * difference hash, or unusable rows, pass use[i] = 0; their hash[i] is never read). Indices in
+ * the output are still positions in hash (0..n-1), not ranks among used items. use == NULL
+ * means every item takes part. Same errors. */
+int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n,
+                              unsigned radius, struct kiln_pairs *out, struct kiln_err *err);
+
+/* The substring split used for radius (see the comment at the top): fills start[t] (bit offset
+ * from the most significant bit, 0..63) and len[t] (bits) for t = 0..m-1 and returns
+ * m = radius + 1; returns 0 and writes nothing when radius > KILN_NEARDUP_MAX_RADIUS. Either
+ * array may be NULL; otherwise it must hold KILN_NEARDUP_MAX_RADIUS + 1 entries. */
+unsigned kiln_neardup_substrings(unsigned radius, unsigned *start, unsigned *len);
+
+/* Frees a pair list whose buffer came from malloc (as kiln_neardup_pairs leaves it) and resets
+ * it to empty ({NULL, 0, 0}). p may be NULL. Do not call it on a list that points at caller
+ * storage (such as a stack array). */
+void kiln_pairs_free(struct kiln_pairs *p);
+
+#endif
