@@ -40,6 +40,7 @@ int cmd_build(int argc, char **argv);
 int cmd_verify(int argc, char **argv);
 int cmd_inspect(int argc, char **argv);
 int cmd_audit(int argc, char **argv);
+int cmd_reproduce(int argc, char **argv);
 
 /* "kiln: error: <msg>" / "kiln: warning: <msg>" on stderr. */
 void cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));

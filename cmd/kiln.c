@@ -26,6 +26,7 @@ static const struct {
     {"build", cmd_build, "scan, split and pack in one run"},
     {"audit", cmd_audit, "report groups, duplicates and near duplicates that span splits"},
     {"verify", cmd_verify, "re-check every checksum of a packed output folder"},
+    {"reproduce", cmd_reproduce, "rebuild a recorded output from today's sources and compare"},
     {"inspect", cmd_inspect, "show the header, arrays and statistics of a .kten file"},
 };
 

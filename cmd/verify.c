@@ -1,5 +1,6 @@
 /* kiln verify: re-check every checksum of a packed output folder and name each mismatch. */
 #include <getopt.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "../core/stage_verify.h"
@@ -10,48 +11,88 @@ static void help(void)
     printf("usage: kiln verify OUTDIR [options]\n\n"
            "Recomputes the SHA-256 of every output listed in OUTDIR/manifest.json, compares it\n"
            "with the manifest and with SHA256SUMS, and checks the per-array SHA-256 values\n"
-           "inside each .kten header. Exit status 0 when all match, 4 when anything differs.\n\n"
+           "inside each .kten header. With --source, also finds every recorded source file\n"
+           "by its SHA-256 in the given folders and archives, reporting missing and changed\n"
+           "files (and, as information, moved and extra ones).\n\n"
+           "Exit status: 0 all good, 4 an output is missing or differs, 5 (outputs good) a\n"
+           "source file is missing or changed.\n\n"
            "options:\n"
+           "  -s, --source DIR     check the sources too (repeatable)\n"
            "  -q, --quiet          print only problems\n"
            "  -h, --help           this text\n");
 }
 
 static void on_issue(void *ctx, int kind, const char *msg)
 {
-    (void)ctx;
-    printf("%s: %s\n", kind == KILN_ISSUE_MISSING ? "MISSING" : "DAMAGED", msg);
+    const bool quiet = *(const bool *)ctx;
+    static const char *const words[] = {"", "DAMAGED", "MISSING", "SOURCE MISSING",
+                                        "SOURCE CHANGED", "moved", "extra"};
+    if ((kind == KILN_ISSUE_SOURCE_MOVED || kind == KILN_ISSUE_SOURCE_EXTRA) && quiet)
+        return;
+    printf("%s: %s\n", kind >= 1 && kind <= 6 ? words[kind] : "?", msg);
 }
 
 int cmd_verify(int argc, char **argv)
 {
-    static const struct option longopts[] = {
-        {"quiet", no_argument, NULL, 'q'}, {"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0}};
+    static const struct option longopts[] = {{"quiet", no_argument, NULL, 'q'},
+                                             {"help", no_argument, NULL, 'h'},
+                                             {"source", required_argument, NULL, 's'},
+                                             {NULL, 0, NULL, 0}};
     bool quiet = false;
     int c;
-    while ((c = getopt_long(argc, argv, "qh", longopts, NULL)) != -1) {
+    const char **sources = calloc((size_t)argc + 1, sizeof *sources);
+    size_t nsources = 0;
+    if (!sources) {
+        cli_error("out of memory");
+        return KILN_EXIT_FAILURE;
+    }
+    while ((c = getopt_long(argc, argv, "s:qh", longopts, NULL)) != -1) {
         switch (c) {
+        case 's': sources[nsources++] = optarg; break;
         case 'q': quiet = true; break;
-        case 'h': help(); return KILN_EXIT_OK;
-        default: return cli_usage_error("verify", "unknown option");
+        case 'h': free(sources); help(); return KILN_EXIT_OK;
+        default: free(sources); return cli_usage_error("verify", "unknown option");
         }
     }
-    if (optind + 1 != argc)
+    if (optind + 1 != argc) {
+        free(sources);
         return cli_usage_error("verify", "name exactly one output folder");
+    }
     const char *dir = argv[optind];
     struct cli_progress prog;
     cli_progress_start(&prog, "verify", true);
     struct kiln_verify_report rep;
     struct kiln_err err;
     kiln_err_clear(&err);
-    int rc = kiln_stage_verify(dir, on_issue, NULL, &rep, &err);
+    int rc = kiln_stage_verify(dir, on_issue, &quiet, &rep, &err);
     if (rc == KILN_EMISMATCH) {
         cli_error("%s: %zu problems (files or arrays differ from their recorded SHA-256)", dir,
                   rep.problems);
+        free(sources);
         return KILN_EXIT_DAMAGED;
     }
     if (rc) {
         cli_error("cannot verify %s: %s", dir, err.msg);
+        free(sources);
         return KILN_EXIT_DAMAGED;
+    }
+    if (nsources) {
+        rc = kiln_stage_verify_sources(dir, sources, nsources, on_issue, &quiet, &rep, &err);
+        free(sources);
+        if (rc == KILN_EMISMATCH) {
+            cli_error("%s: %zu source files missing, %zu changed (of %zu recorded)", dir,
+                      rep.sources_missing, rep.sources_changed, rep.sources_checked);
+            return KILN_EXIT_DRIFT;
+        }
+        if (rc) {
+            cli_error("cannot check the sources of %s: %s", dir, err.msg);
+            return cli_exit_for_input(rc);
+        }
+        if (!quiet)
+            printf("sources: all %zu recorded files found (%zu moved, %zu extra files)\n",
+                   rep.sources_checked, rep.sources_moved, rep.sources_extra);
+    } else {
+        free(sources);
     }
     if (!quiet)
         printf("%s: all %zu files and %zu arrays match (%.1f MB hashed in %.2f s)\n", dir,

@@ -50,6 +50,9 @@ struct kiln_item {
     const char *group;  /* "" when none */
     const char *reason; /* human explanation when status != ok, else "" */
     const char *notes;  /* facts that do not change pixels ("interlaced; sRGB ignored"), or "" */
+    /* Where pack reads the bytes when that differs from the recorded location (reproduce finds
+     * moved files by content); NULL = the recorded source, path and member. Not stored in CSV. */
+    const char *from_source, *from_path, *from_member;
     uint64_t size;
     uint64_t phash; /* 64-bit difference hash of the oriented image (docs/split.md) */
     uint64_t unit_key; /* set by split: the keyed hash of the item's unit */

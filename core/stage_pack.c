@@ -243,24 +243,55 @@ static int queue_job(struct pack_run *run, uint32_t item, uint8_t *data, size_t 
     return KILN_OK;
 }
 
+static const char *fetch_source(const struct kiln_item *it)
+{
+    return it->from_source ? it->from_source : it->source;
+}
+
+static const char *fetch_path(const struct kiln_item *it)
+{
+    return it->from_source ? it->from_path : it->path;
+}
+
+static const char *fetch_member(const struct kiln_item *it)
+{
+    return it->from_source ? it->from_member : it->member;
+}
+
+/* The file to open for an item: its source itself for an archive that is the source. */
 static char *item_fs_path(const struct kiln_item *it)
 {
-    if (!it->path[0])
-        return strdup(it->source);
-    return out_path(it->source, it->path);
+    if (!fetch_path(it)[0])
+        return strdup(fetch_source(it));
+    return out_path(fetch_source(it), fetch_path(it));
 }
 
 static const char *item_name(const struct kiln_item *it, char *buf, size_t len)
 {
     char rel[2048];
-    kiln_item_relname(it->path, it->member, rel, sizeof rel);
-    snprintf(buf, len, "%s/%s", it->source, rel);
+    kiln_item_relname(fetch_path(it), fetch_member(it), rel, sizeof rel);
+    snprintf(buf, len, "%s/%s", fetch_source(it), rel);
     return buf;
 }
 
-/* Members wanted from one archive: catalogue rows [first, last) share (source, path). */
+/* Packed items in order of where their bytes are read, so each archive is one run. */
+static int cmp_fetch(const void *a, const void *b, void *ctx)
+{
+    const struct kiln_item *items = ctx;
+    const struct kiln_item *x = &items[*(const uint32_t *)a], *y = &items[*(const uint32_t *)b];
+    int c = strcmp(fetch_source(x), fetch_source(y));
+    if (!c)
+        c = strcmp(fetch_path(x), fetch_path(y));
+    if (!c)
+        c = strcmp(fetch_member(x), fetch_member(y));
+    return c;
+}
+
+/* Members wanted from one archive: fetch[first, last) share its source and path, sorted by
+ * member. */
 struct archive_fetch {
     struct pack_run *run;
+    const uint32_t *fetch;
     size_t first, last;
 };
 
@@ -271,7 +302,7 @@ static bool want_member(void *ctx, const char *path, const char *member)
     const struct kiln_item *items = f->run->cat->items;
     for (size_t lo = f->first, hi = f->last; lo < hi;) {
         size_t mid = lo + (hi - lo) / 2;
-        int c = strcmp(items[mid].member, member);
+        int c = strcmp(fetch_member(&items[f->fetch[mid]]), member);
         if (c == 0)
             return true;
         if (c < 0)
@@ -288,19 +319,39 @@ static int got_member(void *ctx, struct kiln_source_entry *e, struct kiln_err *e
     struct pack_run *run = f->run;
     const struct kiln_item *items = run->cat->items;
     /* Duplicate member names are possible in tar: give the bytes to the first undelivered. */
-    for (size_t i = f->first; i < f->last; i++)
-        if (run->record_of[i] != NO_RECORD && !run->delivered[i] &&
-            strcmp(items[i].member, e->member) == 0) {
+    for (size_t k = f->first; k < f->last; k++) {
+        uint32_t i = f->fetch[k];
+        if (!run->delivered[i] && strcmp(fetch_member(&items[i]), e->member) == 0) {
             if (e->status != KILN_ST_OK) {
                 char name[2048];
                 free(e->data);
                 return kiln_err_set(err, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
                                     item_name(&items[i], name, sizeof name), e->reason);
             }
-            return queue_job(run, (uint32_t)i, e->data, e->size, err);
+            return queue_job(run, i, e->data, e->size, err);
         }
+    }
     free(e->data);
     return KILN_OK;
+}
+
+static int read_plain(struct pack_run *run, uint32_t i, struct kiln_err *e)
+{
+    const struct kiln_item *it = &run->cat->items[i];
+    char *p = item_fs_path(it);
+    if (!p)
+        return kiln_err_set(e, KILN_ENOMEM, "out of memory");
+    uint8_t *data;
+    size_t size;
+    struct kiln_err re;
+    int rc = kiln_source_read_file(p, 4ull << 30, &data, &size, &re);
+    free(p);
+    if (rc) {
+        char name[2048];
+        return kiln_err_set(e, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
+                            item_name(it, name, sizeof name), re.msg);
+    }
+    return queue_job(run, i, data, size, e);
 }
 
 static void *reader_main(void *arg)
@@ -310,60 +361,44 @@ static void *reader_main(void *arg)
     struct kiln_err e;
     kiln_err_clear(&e);
     int rc = KILN_OK;
-    const uint64_t max_bytes = 4ull << 30;
-    /* Plain files first, in catalogue order. */
-    for (size_t i = 0; i < cat->n && !rc; i++) {
-        const struct kiln_item *it = &cat->items[i];
-        if (run->record_of[i] == NO_RECORD || it->member[0])
+    size_t n = 0;
+    uint32_t *fetch = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *fetch);
+    if (!fetch)
+        rc = kiln_err_set(&e, KILN_ENOMEM, "cannot plan reading %zu items", cat->n);
+    for (size_t i = 0; !rc && i < cat->n; i++)
+        if (run->record_of[i] != NO_RECORD)
+            fetch[n++] = (uint32_t)i;
+    if (!rc)
+        qsort_r(fetch, n, sizeof *fetch, cmp_fetch, cat->items);
+    for (size_t k = 0; k < n && !rc;) {
+        const struct kiln_item *it = &cat->items[fetch[k]];
+        if (!fetch_member(it)[0]) {
+            rc = read_plain(run, fetch[k++], &e);
             continue;
+        }
+        size_t j = k + 1;
+        while (j < n && strcmp(fetch_source(&cat->items[fetch[j]]), fetch_source(it)) == 0 &&
+               strcmp(fetch_path(&cat->items[fetch[j]]), fetch_path(it)) == 0)
+            j++;
         char *p = item_fs_path(it);
         if (!p) {
             rc = kiln_err_set(&e, KILN_ENOMEM, "out of memory");
             break;
         }
-        uint8_t *data;
-        size_t size;
-        struct kiln_err re;
-        rc = kiln_source_read_file(p, max_bytes, &data, &size, &re);
-        if (rc) {
-            char name[2048];
-            rc = kiln_err_set(&e, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
-                              item_name(it, name, sizeof name), re.msg);
-        } else {
-            rc = queue_job(run, (uint32_t)i, data, size, &e);
-        }
+        struct archive_fetch f = {run, fetch, k, j};
+        struct kiln_walk_opts wo = {false, 4ull << 30};
+        rc = kiln_archive_walk(p, fetch_source(it), fetch_path(it), &wo, want_member, got_member,
+                               &f, NULL, &e);
         free(p);
-    }
-    /* Then each archive in one pass. */
-    for (size_t i = 0; i < cat->n && !rc;) {
-        const struct kiln_item *it = &cat->items[i];
-        size_t j = i + 1;
-        while (j < cat->n && strcmp(cat->items[j].source, it->source) == 0 &&
-               strcmp(cat->items[j].path, it->path) == 0)
-            j++;
-        bool needed = false;
-        for (size_t k = i; k < j && !needed; k++)
-            needed = run->record_of[k] != NO_RECORD && cat->items[k].member[0];
-        if (needed) {
-            char *p = item_fs_path(it);
-            if (!p) {
-                rc = kiln_err_set(&e, KILN_ENOMEM, "out of memory");
-                break;
+        for (size_t q = k; q < j && !rc; q++)
+            if (!run->delivered[fetch[q]]) {
+                char name[2048];
+                rc = kiln_err_set(&e, KILN_EMISMATCH, "%s is no longer in its archive",
+                                  item_name(&cat->items[fetch[q]], name, sizeof name));
             }
-            struct archive_fetch f = {run, i, j};
-            struct kiln_walk_opts wo = {false, max_bytes};
-            rc = kiln_archive_walk(p, it->source, it->path, &wo, want_member, got_member, &f,
-                                   NULL, &e);
-            free(p);
-            for (size_t k = i; k < j && !rc; k++)
-                if (run->record_of[k] != NO_RECORD && !run->delivered[k]) {
-                    char name[2048];
-                    rc = kiln_err_set(&e, KILN_EMISMATCH, "%s is no longer in its archive",
-                                      item_name(&cat->items[k], name, sizeof name));
-                }
-        }
-        i = j;
+        k = j;
     }
+    free(fetch);
     if (rc && !has_failed(run))
         fail(run, &e);
     kiln_queue_close(&run->q);

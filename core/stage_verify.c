@@ -11,7 +11,11 @@
 #include "../formats/kten.h"
 #include "../formats/manifest.h"
 #include "../formats/outfile.h"
+#include "../formats/catalog_csv.h"
+#include "checked.h"
 #include "sha256.h"
+#include "stage_index.h"
+#include "stage_scan.h"
 
 struct checked {
     char name[256];
@@ -202,4 +206,132 @@ int kiln_stage_verify(const char *outdir, kiln_issue_fn fn, void *ctx,
     json_decref(m);
     return rep->problems ? kiln_err_set(err, KILN_EMISMATCH, "%zu problems found", rep->problems)
                          : KILN_OK;
+}
+
+struct located {
+    const char *path, *member;
+    const uint8_t *sha;
+    size_t q; /* index entry */
+};
+
+static int cmp_located(const void *a, const void *b)
+{
+    const struct located *x = a, *y = b;
+    int c = strcmp(x->path, y->path);
+    return c ? c : strcmp(x->member, y->member);
+}
+
+int kiln_stage_verify_sources(const char *outdir, const char *const *sources, size_t nsources,
+                              kiln_issue_fn fn, void *ctx, struct kiln_verify_report *rep,
+                              struct kiln_err *err)
+{
+    char *cpath = join(outdir, "catalog.csv"), *mpath = join(outdir, "manifest.json");
+    if (!cpath || !mpath) {
+        free(cpath);
+        free(mpath);
+        return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    }
+    /* The catalogue is only trusted when it matches the manifest. */
+    json_t *m = NULL;
+    int rc = kiln_json_load(mpath, &m, err);
+    const char *want = NULL;
+    size_t i;
+    json_t *o;
+    if (!rc)
+        json_array_foreach(json_object_get(m, "outputs"), i, o)
+            if (kiln_json_str(o, "name") && strcmp(kiln_json_str(o, "name"), "catalog.csv") == 0)
+                want = kiln_json_str(o, "sha256");
+    uint8_t d[KILN_SHA256_LEN];
+    uint64_t size;
+    char hex[KILN_SHA256_HEX];
+    if (!rc && !want)
+        rc = kiln_err_set(err, KILN_EINVAL, "%s lists no catalog.csv", mpath);
+    if (!rc)
+        rc = kiln_file_sha256(cpath, d, &size, err);
+    if (!rc) {
+        kiln_sha256_hex(d, hex);
+        if (strcmp(hex, want) != 0)
+            rc = kiln_err_set(err, KILN_EMISMATCH, "%s does not match its manifest", cpath);
+    }
+    json_decref(m);
+    struct kiln_catalog cat;
+    kiln_catalog_init(&cat);
+    bool has_split;
+    if (!rc)
+        rc = kiln_catalog_csv_load(cpath, &cat, &has_split, err);
+    free(cpath);
+    free(mpath);
+    struct kiln_index idx;
+    if (!rc)
+        rc = kiln_index_build(sources, nsources, false, &idx, err);
+    if (rc) {
+        kiln_catalog_free(&cat);
+        return rc;
+    }
+    struct located *loc = kiln_alloc_array(idx.n ? idx.n : 1, sizeof *loc);
+    uint8_t *used = calloc(idx.n ? idx.n : 1, 1);
+    if (!loc || !used) {
+        free(loc);
+        free(used);
+        kiln_index_free(&idx);
+        kiln_catalog_free(&cat);
+        return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    }
+    for (size_t k = 0; k < idx.n; k++)
+        loc[k] = (struct located){idx.e[k].path, idx.e[k].member, idx.e[k].sha256, k};
+    qsort(loc, idx.n, sizeof *loc, cmp_located);
+    for (size_t k = 0; k < cat.n; k++) {
+        const struct kiln_item *it = &cat.items[k];
+        if (!it->has_sha)
+            continue;
+        rep->sources_checked++;
+        char rel[4096];
+        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        const struct kiln_index_entry *hit = kiln_index_find(&idx, it->sha256);
+        struct located key = {it->path, it->member, NULL, 0};
+        const struct located *at = idx.n ? bsearch(&key, loc, idx.n, sizeof *loc, cmp_located) : NULL;
+        if (hit) {
+            /* Every index entry with this digest is accounted for. */
+            for (size_t q = (size_t)(hit - idx.e); q < idx.n &&
+                 memcmp(idx.e[q].sha256, it->sha256, KILN_SHA256_LEN) == 0; q++)
+                used[q] = 1;
+            if (!at || memcmp(at->sha, it->sha256, KILN_SHA256_LEN) != 0) {
+                char now[4096];
+                kiln_item_relname(hit->path, hit->member, now, sizeof now);
+                rep->sources_moved++;
+                if (fn) {
+                    char msg[8300];
+                    snprintf(msg, sizeof msg, "%s: found by content as %s/%s", rel, hit->source, now);
+                    fn(ctx, KILN_ISSUE_SOURCE_MOVED, msg);
+                }
+            }
+        } else if (at) {
+            used[at->q] = 1; /* the changed file is reported once, not also as extra */
+            rep->sources_changed++;
+            report(fn, ctx, rep, KILN_ISSUE_SOURCE_CHANGED,
+                   "%s: content differs from the recorded SHA-256", rel);
+        } else {
+            rep->sources_missing++;
+            report(fn, ctx, rep, KILN_ISSUE_SOURCE_MISSING,
+                   "%s: no source file has the recorded SHA-256", rel);
+        }
+    }
+    for (size_t q = 0; q < idx.n; q++)
+        if (!used[q]) {
+            rep->sources_extra++;
+            if (fn) {
+                char now[4096], msg[8300];
+                kiln_item_relname(idx.e[q].path, idx.e[q].member, now, sizeof now);
+                snprintf(msg, sizeof msg, "%s/%s: not recorded in the output", idx.e[q].source, now);
+                fn(ctx, KILN_ISSUE_SOURCE_EXTRA, msg);
+            }
+        }
+    free(loc);
+    free(used);
+    kiln_index_free(&idx);
+    kiln_catalog_free(&cat);
+    return rep->sources_missing || rep->sources_changed
+               ? kiln_err_set(err, KILN_EMISMATCH, "%zu source files missing, %zu changed",
+                              rep->sources_missing, rep->sources_changed)
+               : KILN_OK;
 }
