@@ -34,7 +34,8 @@ static const struct option longopts[] = {
     {"channels", required_argument, NULL, 0},   {"depth", required_argument, NULL, 0},
     {"dtype", required_argument, NULL, 0},      {"layout", required_argument, NULL, 0},
     {"pad-value", required_argument, NULL, 0},  {"background", required_argument, NULL, 0},
-    {"no-dct-scale", no_argument, NULL, 0},     {"no-orient", no_argument, NULL, 0},
+    {"no-dct-scale", no_argument, NULL, 0},     {"no-orient", no_argument, NULL, 0},        {"hash-paths", no_argument, NULL, 0},
+    {"path-key", required_argument, NULL, 'K'},
     {NULL, 0, NULL, 0},
 };
 
@@ -60,6 +61,16 @@ int cmd_build(int argc, char **argv)
                 return cli_usage_error("build", "bad --jobs '%s'", optarg);
             break;
         case 'q': quiet = true; break;
+        case 'K': {
+            uint8_t *key;
+            size_t len;
+            if (cli_read_path_key(optarg, &key, &len))
+                return KILN_EXIT_USAGE;
+            free((void *)po.path_key);
+            po.path_key = key;
+            po.path_key_len = len;
+            break;
+        }
         case 'h': help(); return KILN_EXIT_OK;
         case 0: {
             const char *name = longopts[idx].name;
@@ -140,5 +151,6 @@ int cmd_build(int argc, char **argv)
     for (int i = 0; sources && i < nsrc; i++)
         free(sources[i]);
     free(sources);
+    free((void *)po.path_key);
     return exit_code;
 }

@@ -73,6 +73,9 @@ int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg)
 int cli_split_option(struct kiln_split_params *p, const char *name, const char *arg);
 int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg);
 
+/* Reads a --path-key file (at most 1 MiB, not empty); prints the error and returns -1. */
+int cli_read_path_key(const char *file, uint8_t **key, size_t *len);
+
 /* Split parameters with their defaults (80:10:10, exact, no near-duplicate merging). */
 void cli_split_defaults(struct kiln_split_params *p);
 /* Loads --keep (if given), runs the split over cat and reports problems; returns an exit

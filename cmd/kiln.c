@@ -12,6 +12,7 @@
 #include "../core/checked.h"
 #include "../core/stage_pack.h"
 #include "../formats/keep.h"
+#include "../formats/source.h"
 #include "../core/version.h"
 #include "cmd.h"
 
@@ -229,7 +230,11 @@ const char cli_recipe_help[] =
     "  --pad-value V[,..]   letterbox fill, 0-255 per channel (default 0)\n"
     "  --background R,G,B   colour alpha is composited over (default 255,255,255)\n"
     "  --no-dct-scale       decode JPEG at full size even when the target is small\n"
-    "  --no-orient          ignore EXIF orientation\n";
+    "  --no-orient          ignore EXIF orientation\n"
+    "  --hash-paths         write file, folder and group names as keyed hashes in every\n"
+    "                       output (personal data in names; docs/formats.md)\n"
+    "  --path-key FILE      secret key for --hash-paths (without it the key is public and\n"
+    "                       a guessed name can be confirmed)\n";
 
 int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg)
 {
@@ -348,6 +353,10 @@ int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg)
         r->orient = false;
         return 1;
     }
+    if (strcmp(name, "hash-paths") == 0) {
+        r->hash_paths = true;
+        return 1;
+    }
     for (size_t i = 0; i < sizeof keys / sizeof keys[0]; i++)
         if (strcmp(name, keys[i]) == 0) {
             if (kiln_recipe_set(r, name, arg, &e)) {
@@ -378,6 +387,16 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
         fprintf(f, "  %s: %s/%s: %s\n", kiln_status_name(it->status), it->source, rel, it->reason);
         shown++;
     }
+}
+
+int cli_read_path_key(const char *file, uint8_t **key, size_t *len)
+{
+    struct kiln_err e;
+    if (kiln_source_read_file(file, 1u << 20, key, len, &e) != 0 || *len == 0) {
+        cli_error("cannot use %s as a path key: %s", file, *len ? e.msg : "empty file");
+        return -1;
+    }
+    return 0;
 }
 
 void cli_split_defaults(struct kiln_split_params *p)

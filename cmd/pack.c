@@ -32,7 +32,8 @@ static const struct option longopts[] = {
     {"depth", required_argument, NULL, 0},      {"dtype", required_argument, NULL, 0},
     {"layout", required_argument, NULL, 0},     {"pad-value", required_argument, NULL, 0},
     {"background", required_argument, NULL, 0}, {"no-dct-scale", no_argument, NULL, 0},
-    {"no-orient", no_argument, NULL, 0},        {"max-pixels", required_argument, NULL, 0},
+    {"no-orient", no_argument, NULL, 0},        {"hash-paths", no_argument, NULL, 0},
+    {"path-key", required_argument, NULL, 'K'},        {"max-pixels", required_argument, NULL, 0},
     {"max-side", required_argument, NULL, 0},   {NULL, 0, NULL, 0},
 };
 
@@ -52,6 +53,16 @@ int cmd_pack(int argc, char **argv)
                 return cli_usage_error("pack", "bad --jobs '%s'", optarg);
             break;
         case 'q': quiet = true; break;
+        case 'K': {
+            uint8_t *key;
+            size_t len;
+            if (cli_read_path_key(optarg, &key, &len))
+                return KILN_EXIT_USAGE;
+            free((void *)o.path_key);
+            o.path_key = key;
+            o.path_key_len = len;
+            break;
+        }
         case 'h': help(); return KILN_EXIT_OK;
         case 0:
             if (cli_recipe_option(&o.recipe, longopts[idx].name, optarg) < 0)
@@ -108,5 +119,6 @@ int cmd_pack(int argc, char **argv)
     json_decref(rec);
     free(rec_path);
     kiln_catalog_free(&cat);
+    free((void *)o.path_key);
     return exit_code;
 }

@@ -23,6 +23,7 @@ struct kiln_recipe {
     int layout;
     bool dct_scale; /* JPEG DCT-domain reduction when the target is small enough */
     bool orient;    /* apply EXIF orientation */
+    bool hash_paths; /* names are written as keyed hashes (docs/formats.md) */
     uint8_t pad_value[4];  /* 8-bit scale, times 257 for 16-bit records */
     uint8_t background[3]; /* alpha is composited over this (8-bit scale) */
     uint64_t max_pixels;

@@ -581,6 +581,53 @@ static json_t *classes_json(const struct kiln_catalog *cat)
     return a;
 }
 
+/* Replaces every name that could identify a person or specimen by its keyed hash. Called after
+ * all bytes were read, so reading still used the real names. */
+static int hash_names(struct kiln_catalog *cat, const struct kiln_pack_opts *o, json_t *scan,
+                      struct kiln_err *err)
+{
+    static const char public_key[] = "kiln-paths-v1";
+    const uint8_t *key = o->path_key ? o->path_key : (const uint8_t *)public_key;
+    size_t keylen = o->path_key ? o->path_key_len : sizeof public_key - 1;
+    for (size_t i = 0; i < cat->n; i++) {
+        struct kiln_item *it = &cat->items[i];
+        if (!it->from_source) {
+            it->from_source = it->source;
+            it->from_path = it->path;
+            it->from_member = it->member;
+        }
+        const char **names[] = {&it->source, &it->path, &it->member, &it->group};
+        for (size_t k = 0; k < sizeof names / sizeof names[0]; k++) {
+            if (!(*names[k])[0])
+                continue; /* empty stays empty: "no member", "no group" */
+            uint8_t mac[KILN_SHA256_LEN];
+            char hex[KILN_SHA256_HEX], out[36];
+            int rc = kiln_hmac_sha256(key, keylen, *names[k], strlen(*names[k]), mac, err);
+            if (rc)
+                return rc;
+            kiln_sha256_hex(mac, hex);
+            snprintf(out, sizeof out, "h:%.32s", hex);
+            *names[k] = kiln_arena_strdup(&cat->strings, out);
+            if (!*names[k])
+                return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+        }
+    }
+    if (scan) {
+        json_t *src = json_array();
+        size_t i;
+        json_t *v;
+        json_array_foreach(json_object_get(scan, "sources"), i, v)
+        {
+            (void)v;
+            json_array_append_new(src, json_string("h:(hidden by --hash-paths)"));
+        }
+        json_object_set_new(scan, "sources", src);
+        if (json_is_string(json_object_get(scan, "labels_csv")))
+            json_object_set_new(scan, "labels_csv", json_string("h:(hidden by --hash-paths)"));
+    }
+    return KILN_OK;
+}
+
 static int write_items_csv(struct pack_run *run, const char *path, struct kiln_err *err)
 {
     struct kiln_outfile of;
@@ -1009,6 +1056,12 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         kiln_outfile_abort(&run.pool); /* the pool is scratch: never renamed into place */
         run.pool_fd = -1;
     }
+    json_t *scan_copy = NULL;
+    if (!rc && o->recipe.hash_paths && !o->names_hashed) {
+        const json_t *sr = json_object_get(o->catalog_record, "scan");
+        scan_copy = sr ? json_deep_copy(sr) : NULL;
+        rc = hash_names(cat, o, scan_copy, err);
+    }
     char *items_path = out_path(o->outdir, "items.csv");
     char *cat_path = out_path(o->outdir, "catalog.csv");
     if (!rc && (!items_path || !cat_path))
@@ -1043,7 +1096,8 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         json_object_set_new(manifest, "recipe", json_incref(recipe));
         json_object_set_new(manifest, "recipe_sha256", json_string(recipe_sha));
         const json_t *rec = o->catalog_record;
-        json_t *scan_rec = json_object_get(rec, "scan"), *split_rec = json_object_get(rec, "split");
+        json_t *scan_rec = scan_copy ? scan_copy : json_object_get(rec, "scan");
+        json_t *split_rec = json_object_get(rec, "split");
         json_object_set_new(manifest, "scan", scan_rec ? json_incref(scan_rec) : json_null());
         json_object_set_new(manifest, "split", split_rec ? json_incref(split_rec) : json_null());
         json_object_set_new(manifest, "classes", classes_json(cat));
@@ -1098,6 +1152,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     }
     if (rc)
         abort_outputs(&run);
+    json_decref(scan_copy);
     json_decref(manifest);
     json_decref(recipe);
     json_decref(stats_all);

@@ -233,7 +233,9 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     /* Rerun the recorded split, unless it depended on an earlier output (--keep) or items are
      * missing (which would reshuffle exact-mode dealing): then the recorded splits stand. */
     json_t *split = json_object_get(m, "split");
-    if (json_is_object(split) && json_is_null(json_object_get(split, "keep")) && !rep->missing) {
+    /* Hashed group keys (--hash-paths) no longer give the unit ids either. */
+    if (json_is_object(split) && json_is_null(json_object_get(split, "keep")) && !rep->missing &&
+        !po.recipe.hash_paths) {
         rc = rerun_split(&cat, split, fn, ctx, rep, err);
         if (rc)
             goto out;
@@ -242,6 +244,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     json_object_set(record, "scan", json_object_get(m, "scan"));
     json_object_set(record, "split", split);
     po.outdir = o->outdir;
+    po.names_hashed = po.recipe.hash_paths;
     po.jobs = o->jobs;
     po.catalog_record = record;
     po.progress = o->progress;

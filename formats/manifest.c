@@ -87,6 +87,7 @@ json_t *kiln_recipe_to_json(const struct kiln_recipe *r)
     json_object_set_new(j, "max_pixels", json_integer((json_int_t)r->max_pixels));
     json_object_set_new(j, "max_side", json_integer(r->max_side));
     json_object_set_new(j, "resample_bits", json_integer(KILN_RESIZE_BITS));
+    json_object_set_new(j, "hash_paths", json_boolean(r->hash_paths));
     return j;
 }
 
@@ -138,6 +139,7 @@ int kiln_recipe_from_json(const json_t *j, struct kiln_recipe *r, struct kiln_er
         return kiln_err_set(err, KILN_EINVAL, "recipe has no dct_scale or orient switch");
     r->dct_scale = json_is_true(dct);
     r->orient = json_is_true(orient);
+    r->hash_paths = json_is_true(json_object_get(j, "hash_paths"));
     char buf[64];
     if (levels_from(json_object_get(j, "pad_value"), 4, buf, sizeof buf) ||
         kiln_recipe_set(r, "pad-value", buf, err))
