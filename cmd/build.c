@@ -120,6 +120,7 @@ int cmd_build(int argc, char **argv)
     json_t *rec = json_object();
     int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, &so, &cat, &srep, &err);
     cli_progress_done(&prog);
+    const bool scan_failed = rc != 0;
     if (!rc) {
         json_object_set_new(rec, "scan", kiln_scan_record((const char *const *)sources,
                                                           (size_t)nsrc, &so, &srep, &cat));
@@ -143,7 +144,7 @@ int cmd_build(int argc, char **argv)
     }
     if (rc > 0) {
         cli_error("%s", err.msg);
-        exit_code = cli_exit_for(rc);
+        exit_code = scan_failed ? cli_exit_for_input(rc) : cli_exit_for(rc);
     }
     json_decref(rec);
     kiln_units_free(&units);

@@ -100,7 +100,7 @@ int cmd_scan(int argc, char **argv)
     int exit_code = KILN_EXIT_OK;
     if (rc) {
         cli_error("%s", err.msg);
-        exit_code = cli_exit_for(rc);
+        exit_code = cli_exit_for_input(rc); /* a source or labels file that cannot be read */
     } else {
         rc = kiln_catalog_csv_save(output, &cat, &err);
         char *rec_path = cli_catalog_record_path(output);
