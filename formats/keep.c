@@ -111,9 +111,14 @@ int kiln_keep_load(const char *manifest_path, struct kiln_keep *k, struct kiln_e
         size_t u = 0;
         for (size_t j = 0; j < k->n && !rc; j++) {
             if (u && memcmp(k->e[u - 1].sha256, k->e[j].sha256, KILN_SHA256_LEN) == 0) {
-                if (k->e[u - 1].split != k->e[j].split)
+                if (k->e[u - 1].split != k->e[j].split) {
+                    char hexd[KILN_SHA256_HEX];
+                    kiln_sha256_hex(k->e[j].sha256, hexd);
                     rc = kiln_err_set(err, KILN_EMISMATCH,
-                                      "%s lists one file digest in two splits", items);
+                                      "%s lists the file digest %s in two splits (%s and %s)",
+                                      items, hexd, kiln_split_name(k->e[u - 1].split),
+                                      kiln_split_name(k->e[j].split));
+                }
                 continue;
             }
             k->e[u++] = k->e[j];
