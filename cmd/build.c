@@ -3,6 +3,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../core/record_pool.h"
 #include "../core/stage_pack.h"
 #include "../core/stage_record.h"
 #include "cmd.h"
@@ -107,6 +108,20 @@ int cmd_build(int argc, char **argv)
         while (len > 1 && sources[i][len - 1] == '/')
             sources[i][--len] = '\0';
     }
+    /* One decode per image: scan prepares the records into a pool that pack lays out. */
+    struct kiln_record_pool pool;
+    int prc = kiln_record_pool_open(&pool, po.outdir, &po.recipe, &err);
+    if (prc) {
+        cli_error("%s", err.msg);
+        for (int i = 0; sources && i < nsrc; i++)
+            free(sources[i]);
+        free(sources);
+        free((void *)po.path_key);
+        return cli_exit_for(prc);
+    }
+    so.pool = po.pool = &pool;
+    so.limits.max_pixels = po.recipe.max_pixels;
+    so.limits.max_side = po.recipe.max_side;
     struct cli_progress prog;
     cli_progress_start(&prog, "scan", quiet);
     so.progress = cli_progress_update;
@@ -146,6 +161,7 @@ int cmd_build(int argc, char **argv)
         cli_error("%s", err.msg);
         exit_code = scan_failed ? cli_exit_for_input(rc) : cli_exit_for(rc);
     }
+    kiln_record_pool_close(&pool);
     json_decref(rec);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);

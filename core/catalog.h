@@ -67,6 +67,9 @@ struct kiln_item {
     uint8_t status;
     uint8_t has_pixels; /* phash and pixel_sha256 are valid */
     uint8_t has_sha;    /* the bytes were read and sha256 is valid (also for empty files) */
+    uint8_t pixel_scale; /* the decode the pixel digest and hash come from: 1, or a JPEG DCT
+                            reduction 2, 4, 8 (kiln build; docs/split.md) */
+    uint32_t pool_slot;  /* kiln build: the item's record in the record pool, or UINT32_MAX */
     int8_t split;       /* KILN_SPLIT_NONE until split */
 };
 

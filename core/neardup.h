@@ -20,10 +20,13 @@
  * t): n^2/32 768 at radius 3, n^2/158 at the default radius 6, n^2/10 at radius 10, n^2/2 (as
  * many as brute force) at radius 15 and n^2/1.5 at radius 16. So it is linear only while
  * buckets stay small (n up to about 2^len_t) and otherwise a fixed fraction of brute force,
- * which shrinks quickly as the radius falls. A cluster of k identical hashes is one bucket in every table and yields
- * k(k-1)/2 pairs: that output is inherent in listing every pair, and it costs m times as many
- * comparisons (each table sees the cluster; only table 0 reports it). Memory is O(n) working
- * space (about 24 bytes per participating item, 36 at radius 0..2) plus the output. */
+ * which shrinks quickly as the radius falls. A cluster of k identical hashes is one bucket in
+ * every table and yields k(k-1)/2 pairs: that output is inherent in listing every pair, and it
+ * costs m times as many comparisons (each table sees the cluster; only table 0 reports it).
+ * Memory is O(n) working space (about 24 bytes per participating item, 36 at radius 0..2) plus
+ * the output, which is 8 bytes a pair, grown by doubling, and for 4 096 pairs or more briefly
+ * doubled again by the buffer of the final sort (if that buffer cannot be had, an in-place sort
+ * is used instead). */
 #ifndef KILN_NEARDUP_H
 #define KILN_NEARDUP_H
 

@@ -101,10 +101,12 @@ static int parse_levels(const char *text, uint8_t *out, unsigned n)
             break;
         s += len + 1;
     }
-    if (k != 1 && k != n)
+    /* One value fills every channel; for the four pad channels three values are R,G,B with an
+     * opaque alpha. */
+    if (k != 1 && k != n && !(n == 4 && k == 3))
         return -1;
     for (unsigned i = 0; i < n; i++)
-        out[i] = k == 1 ? v[0] : v[i];
+        out[i] = k == 1 ? v[0] : i < k ? v[i] : 255;
     return 0;
 }
 
@@ -159,7 +161,7 @@ int kiln_recipe_set(struct kiln_recipe *r, const char *key, const char *v, struc
     } else if (strcmp(key, "pad-value") == 0) {
         if (parse_levels(v, r->pad_value, 4))
             return kiln_err_set(err, KILN_EINVAL,
-                                "bad --pad-value '%s': one 0-255 value or one per channel", v);
+                                "bad --pad-value '%s': one 0-255 value, R,G,B or R,G,B,A", v);
     } else if (strcmp(key, "background") == 0) {
         if (parse_levels(v, r->background, 3))
             return kiln_err_set(err, KILN_EINVAL,

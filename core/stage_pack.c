@@ -24,6 +24,7 @@
 #include "../formats/source.h"
 #include "audit.h"
 #include "checked.h"
+#include "record_pool.h"
 #include "stage_record.h"
 #include "prepare.h"
 #include "queue.h"
@@ -182,7 +183,7 @@ static bool is_owned(const char *name)
 
 /* Accepts an empty folder or an earlier kiln output; removes the old manifest and checksum
  * list first, so from here until the new ones are written nothing claims to be complete. */
-static int prepare_outdir(const char *dir, struct kiln_err *err)
+int kiln_pack_prepare_outdir(const char *dir, struct kiln_err *err)
 {
     int rc = make_dirs(dir, err);
     if (rc)
@@ -194,8 +195,8 @@ static int prepare_outdir(const char *dir, struct kiln_err *err)
     char foreign_name[256] = "";
     struct dirent *de;
     while ((de = readdir(d)) != NULL) {
-        if (strcmp(de->d_name, ".") == 0 || strcmp(de->d_name, "..") == 0)
-            continue;
+        if (de->d_name[0] == '.')
+            continue; /* temporary files of this or an interrupted run */
         if (strcmp(de->d_name, "manifest.json") == 0)
             has_manifest = true;
         else if (!is_owned(de->d_name) && !foreign) {
@@ -416,6 +417,30 @@ struct pack_worker {
     size_t dct_reduced;
 };
 
+/* Statistics see the integer record; in CHW layout the channels are planes, so each plane is
+ * added as a one-channel run into its own channel. */
+static int add_record_stats(struct kiln_stats *st, const struct kiln_recipe *r,
+                            const uint8_t *record, struct kiln_err *e)
+{
+    const size_t npx = (size_t)r->width * r->height;
+    if (r->layout == KILN_LAYOUT_NHWC)
+        return r->depth == 8 ? kiln_stats_add_u8(st, record, npx, e)
+                             : kiln_stats_add_u16(st, (const uint16_t *)record, npx, e);
+    int rc = KILN_OK;
+    for (unsigned c = 0; c < r->channels && !rc; c++) {
+        struct kiln_stats one, wide;
+        kiln_stats_init(&one, 1);
+        rc = r->depth == 8 ? kiln_stats_add_u8(&one, record + c * npx, npx, e)
+                           : kiln_stats_add_u16(&one, (const uint16_t *)record + c * npx, npx, e);
+        if (!rc) {
+            kiln_stats_init(&wide, st->channels);
+            wide.ch[c] = one.ch[0];
+            rc = kiln_stats_merge(st, &wide, e);
+        }
+    }
+    return rc;
+}
+
 static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln_err *e)
 {
     struct pack_run *run = w->run;
@@ -458,27 +483,7 @@ static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln
     if (denom > 1)
         w->dct_reduced++;
     const int s = it->split;
-    const size_t npx = (size_t)r->width * r->height;
-    /* Statistics see the integer record; in CHW layout the channels are planes, so each plane
-     * is added as a one-channel run into its own channel. */
-    if (r->layout == KILN_LAYOUT_NHWC) {
-        rc = r->depth == 8 ? kiln_stats_add_u8(&w->stats[s], w->record, npx, e)
-                           : kiln_stats_add_u16(&w->stats[s], (const uint16_t *)w->record, npx, e);
-    } else {
-        for (unsigned c = 0; c < r->channels && !rc; c++) {
-            struct kiln_stats one;
-            kiln_stats_init(&one, 1);
-            rc = r->depth == 8
-                     ? kiln_stats_add_u8(&one, w->record + c * npx, npx, e)
-                     : kiln_stats_add_u16(&one, (const uint16_t *)w->record + c * npx, npx, e);
-            if (!rc) {
-                struct kiln_stats wide;
-                kiln_stats_init(&wide, w->stats[s].channels);
-                wide.ch[c] = one.ch[0];
-                rc = kiln_stats_merge(&w->stats[s], &wide, e);
-            }
-        }
-    }
+    rc = add_record_stats(&w->stats[s], r, w->record, e);
     if (rc)
         return rc;
     const uint64_t off = (uint64_t)run->record_of[j->item] * run->int_record;
@@ -534,11 +539,19 @@ static int convert_f32(struct pack_run *run, int s, const double mean[4], const 
     }
     int rc = KILN_OK;
     for (size_t rec = 0; rec < run->rep->records[s] && !rc; rec++) {
-        const uint64_t off = (uint64_t)rec * run->int_record;
-        ssize_t got = pread(run->pool_fd, in, run->int_record, (off_t)(run->pool_base[s] + off));
-        if (got != (ssize_t)run->int_record) {
-            rc = kiln_err_sys(err, KILN_EIO, errno, "cannot read back record %zu", rec);
-            break;
+        if (run->o->pool) {
+            rc = kiln_record_pool_get(run->o->pool, run->cat->items[run->order[s][rec]].pool_slot,
+                                      in, err);
+            if (rc)
+                break;
+        } else {
+            const uint64_t off = (uint64_t)rec * run->int_record;
+            ssize_t got =
+                pread(run->pool_fd, in, run->int_record, (off_t)(run->pool_base[s] + off));
+            if (got != (ssize_t)run->int_record) {
+                rc = kiln_err_sys(err, KILN_EIO, errno, "cannot read back record %zu", rec);
+                break;
+            }
         }
         for (size_t k = 0; k < samples; k++) {
             size_t c = r->layout == KILN_LAYOUT_NHWC ? k % r->channels : k / npx;
@@ -744,7 +757,7 @@ static int open_outputs(struct pack_run *run, struct kiln_err *err)
         run->kten_open[s] = true;
         run->rep->present[s] = true;
     }
-    if (r->dtype == KILN_OUT_F32) {
+    if (r->dtype == KILN_OUT_F32 && !run->o->pool) {
         char *p = out_path(run->o->outdir, "records.pool");
         if (!p)
             return kiln_err_set(err, KILN_ENOMEM, "out of memory");
@@ -777,6 +790,37 @@ static void abort_outputs(struct pack_run *run)
         kiln_outfile_abort(&run->pool);
         run->pool_fd = -1;
     }
+}
+
+/* kiln build: the records were prepared during scan; lay them out per split in record order
+ * and take the statistics on the way. */
+static int layout_from_pool(struct pack_run *run, struct kiln_err *err)
+{
+    const struct kiln_recipe *r = &run->o->recipe;
+    uint8_t *buf = malloc(run->int_record);
+    if (!buf)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a record");
+    int rc = KILN_OK;
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        kiln_stats_init(&run->rep->stats[s], r->channels);
+    for (int s = 0; s < KILN_NSPLITS && !rc; s++)
+        for (size_t k = 0; k < run->rep->records[s] && !rc; k++) {
+            const struct kiln_item *it = &run->cat->items[run->order[s][k]];
+            if (it->pool_slot == KILN_NO_SLOT) {
+                rc = kiln_err_set(err, KILN_EINTERNAL, "item %s has no prepared record", it->path);
+                break;
+            }
+            rc = kiln_record_pool_get(run->o->pool, it->pool_slot, buf, err);
+            if (!rc)
+                rc = add_record_stats(&run->rep->stats[s], r, buf, err);
+            if (!rc && r->dtype != KILN_OUT_F32)
+                rc = kiln_kten_write(&run->kten[s], 0, (uint64_t)k * run->int_record, buf,
+                                     run->int_record, err);
+            if (!rc && it->pixel_scale > 1)
+                run->rep->dct_reduced++;
+        }
+    free(buf);
+    return rc;
 }
 
 static int run_workers(struct pack_run *run, struct kiln_err *err)
@@ -1018,12 +1062,12 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         return kiln_err_set(err, KILN_ENOMEM, "cannot plan the pack");
     rc = plan_records(&run, err);
     if (!rc)
-        rc = prepare_outdir(o->outdir, err);
+        rc = o->pool ? KILN_OK : kiln_pack_prepare_outdir(o->outdir, err);
     if (!rc)
         rc = open_outputs(&run, err);
     run.prog.total_items = packed;
     if (!rc)
-        rc = run_workers(&run, err);
+        rc = o->pool ? layout_from_pool(&run, err) : run_workers(&run, err);
 
     json_t *recipe = kiln_recipe_to_json(r);
     char *recipe_text = kiln_json_dump(recipe);

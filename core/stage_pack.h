@@ -28,6 +28,8 @@ struct kiln_pack_opts {
     size_t path_key_len;
     kiln_progress_fn progress;
     void *progress_ctx;
+    /* kiln build: records prepared during scan (each item's pool_slot); no decoding here. */
+    struct kiln_record_pool *pool;
 };
 
 struct kiln_pack_report {
@@ -45,6 +47,12 @@ struct kiln_pack_report {
  * that a failed run never leaves a manifest describing files it did not write. */
 int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
                     struct kiln_pack_report *rep, struct kiln_err *err);
+
+/* Creates outdir if needed and checks it is empty or an earlier kiln output, then removes the
+ * old manifest and checksum list (hidden temporary files are ignored). */
+int kiln_pack_prepare_outdir(const char *outdir, struct kiln_err *err);
+
+struct kiln_record_pool;
 
 /* The names of the files pack writes, in the order SHA256SUMS lists them. */
 extern const char *const kiln_split_files[KILN_NSPLITS]; /* "train.kten", ... */

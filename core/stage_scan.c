@@ -11,6 +11,8 @@
 
 #include "../formats/csv.h"
 #include "checked.h"
+#include "prepare.h"
+#include "record_pool.h"
 #include "convert.h"
 #include "queue.h"
 #include "resize.h"
@@ -305,6 +307,8 @@ static int status_for_code(int code)
 
 struct worker {
     struct scan_run *run;
+    struct kiln_prep prep; /* build: the record is prepared from the same decode */
+    uint8_t *record;
     char notes[96];
     struct kiln_image img, oriented, scratch[2];
     struct kiln_resizer rs;
@@ -367,9 +371,16 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
                  info.height, (unsigned long long)o->limits.max_pixels, o->limits.max_side);
         return KILN_OK;
     }
-    rc = kiln_decoded_shape(&info, 1, &w->img, &e);
+    /* kiln build decodes once, at the scale pack uses; the digests then describe that decode
+     * (pixel_scale). A plain scan decodes at full size. */
+    const struct kiln_recipe *recipe = o->pool ? o->pool->recipe : NULL;
+    uint32_t denom = recipe ? kiln_prep_choose_denom(recipe, info.width, info.height,
+                                                     info.orientation, info.max_scale_denom)
+                            : 1;
+    it->pixel_scale = (uint8_t)denom;
+    rc = kiln_decoded_shape(&info, denom, &w->img, &e);
     if (!rc)
-        rc = dec->decode(j->data, j->size, &info, 1, &w->img, &e);
+        rc = dec->decode(j->data, j->size, &info, denom, &w->img, &e);
     if (rc == KILN_ENOMEM || rc == KILN_EINTERNAL)
         return kiln_err_set(&w->run->err, rc, "%s/%s%s%s: %s", j->root, j->path,
                             j->member[0] ? ":" : "", j->member, e.msg);
@@ -391,6 +402,17 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
     if (rc)
         return kiln_err_set(&w->run->err, rc, "%s", e.msg);
     it->has_pixels = 1;
+    if (recipe) {
+        /* The oriented image with orientation 1 gives the same record as the stored one with
+         * its orientation, and is already at hand. */
+        const bool use_oriented = recipe->orient && info.orientation != 1;
+        rc = kiln_prep_record(&w->prep, recipe, use_oriented ? &w->oriented : &w->img,
+                              use_oriented ? 1 : info.orientation, w->record, &e);
+        if (!rc)
+            rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
+        if (rc)
+            return kiln_err_set(&w->run->err, rc, "%s/%s: %s", j->root, j->path, e.msg);
+    }
     return KILN_OK;
 }
 
@@ -425,6 +447,7 @@ static int process(struct worker *w, struct job *j)
     it.member = j->member;
     it.class_index = -1;
     it.split = KILN_SPLIT_NONE;
+    it.pool_slot = KILN_NO_SLOT;
     it.size = j->size;
     it.status = (uint8_t)j->status;
     char reason[256];
@@ -580,6 +603,9 @@ int kiln_stage_scan(const char *const *sources, size_t nsources, const struct ki
     for (; started < jobs; started++) {
         workers[started].run = &run;
         kiln_resizer_init(&workers[started].rs);
+        kiln_prep_init(&workers[started].prep);
+        if (o->pool && !(workers[started].record = malloc(o->pool->record_bytes)))
+            break;
         if (pthread_create(&tids[started], NULL, worker_main, &workers[started]) != 0)
             break;
     }
@@ -601,6 +627,8 @@ out:
             kiln_image_free(&workers[i].scratch[0]);
             kiln_image_free(&workers[i].scratch[1]);
             kiln_resizer_free(&workers[i].rs);
+            kiln_prep_free(&workers[i].prep);
+            free(workers[i].record);
         }
     free(workers);
     free(tids);

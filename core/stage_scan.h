@@ -32,6 +32,9 @@ struct kiln_scan_opts {
     size_t queue_bytes; /* bytes of file data in flight between reader and workers */
     kiln_progress_fn progress;
     void *progress_ctx;
+    /* kiln build: prepare each usable item's record from the scan's one decode, at the scale
+     * the pool's recipe needs, and store it in the pool (NULL: a plain scan). */
+    struct kiln_record_pool *pool;
 };
 
 void kiln_scan_opts_defaults(struct kiln_scan_opts *o);

@@ -13,13 +13,13 @@
 enum col {
     C_SOURCE, C_PATH, C_MEMBER, C_SIZE, C_SHA256, C_FORMAT, C_WIDTH, C_HEIGHT, C_CHANNELS,
     C_DEPTH, C_STORED_DEPTH, C_ORIENTATION, C_PAGES, C_NOTES, C_LABEL, C_CLASS, C_GROUP, C_STATUS,
-    C_REASON, C_PIXEL_SHA256, C_PHASH, C_UNIT, C_SPLIT, C_COUNT
+    C_REASON, C_PIXEL_SHA256, C_PHASH, C_PIXEL_SCALE, C_UNIT, C_SPLIT, C_COUNT
 };
 
 static const char *const col_names[C_COUNT] = {
     "source", "path", "member", "size", "sha256", "format", "width", "height", "channels",
     "depth", "stored_depth", "orientation", "pages", "notes", "label", "class", "group", "status",
-    "reason", "pixel_sha256", "phash", "unit", "split",
+    "reason", "pixel_sha256", "phash", "pixel_scale", "unit", "split",
 };
 
 static void text_field(FILE *f, const char *s, int first)
@@ -65,9 +65,10 @@ int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_
         fprintf(f, ",%s,", kiln_status_name(it->status));
         text_field(f, it->reason, 1);
         if (it->has_pixels)
-            fprintf(f, ",%s,%016" PRIx64, psha, it->phash);
+            fprintf(f, ",%s,%016" PRIx64 ",%u", psha, it->phash,
+                    it->pixel_scale ? it->pixel_scale : 1u);
         else
-            fputs(",,", f);
+            fputs(",,,", f);
         if (it->split >= 0)
             fprintf(f, ",%016" PRIx64 ",%s", it->unit_key, kiln_split_name(it->split));
         else
@@ -162,6 +163,7 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
         memset(&it, 0, sizeof it);
         it.class_index = -1;
         it.split = KILN_SPLIT_NONE;
+        it.pool_slot = UINT32_MAX;
         const char *bad = NULL;
         static const int texts[] = {C_SOURCE, C_PATH, C_MEMBER, C_FORMAT, C_LABEL, C_GROUP,
                                     C_REASON, C_NOTES};
@@ -212,6 +214,13 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
                 bad = "pixel_sha256/phash";
             else
                 it.has_pixels = 1;
+            it.pixel_scale = 1;
+            if (v[C_PIXEL_SCALE][0]) {
+                if (parse_u32(v[C_PIXEL_SCALE], &u, 8) || (u != 1 && u != 2 && u != 4 && u != 8))
+                    bad = "pixel_scale";
+                else
+                    it.pixel_scale = (uint8_t)u;
+            }
         }
         if (!bad && v[C_SPLIT][0]) {
             int sp = kiln_split_parse(v[C_SPLIT]);

@@ -128,6 +128,9 @@ static void test_set_accepts(void **state)
     set_ok(&r, "pad-value", "0,128,255,9");
     const uint8_t pv[4] = {0, 128, 255, 9};
     assert_memory_equal(r.pad_value, pv, 4);
+    set_ok(&r, "pad-value", "128,0,255"); /* R,G,B: alpha opaque (docs/cli.md) */
+    const uint8_t rgb[4] = {128, 0, 255, 255};
+    assert_memory_equal(r.pad_value, rgb, 4);
     set_ok(&r, "background", "10,20,30");
     const uint8_t bg[3] = {10, 20, 30};
     assert_memory_equal(r.background, bg, 3);
@@ -172,7 +175,7 @@ static void test_set_rejects(void **state)
     set_bad(&r, "dtype", "U8");
     set_bad(&r, "layout", "hwc");
     set_bad(&r, "pad-value", "256");
-    set_bad(&r, "pad-value", "1,2,3"); /* one value or one per channel (4) */
+    set_bad(&r, "pad-value", "1,2"); /* one value, R,G,B or R,G,B,A */
     set_bad(&r, "pad-value", "1,2,3,4,5");
     set_bad(&r, "pad-value", "1,");
     set_bad(&r, "pad-value", ",1");
