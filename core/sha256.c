@@ -6,6 +6,7 @@
 
 int kiln_sha256_init(struct kiln_sha256 *ctx, struct kiln_err *err)
 {
+    ctx->evp = NULL;
     EVP_MD_CTX *md = EVP_MD_CTX_new();
     if (!md)
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a SHA-256 context");
@@ -38,7 +39,7 @@ void kiln_sha256_free(struct kiln_sha256 *ctx)
 
 int kiln_sha256_buf(const void *data, size_t len, uint8_t out[KILN_SHA256_LEN], struct kiln_err *err)
 {
-    struct kiln_sha256 ctx;
+    struct kiln_sha256 ctx = {NULL};
     int rc = kiln_sha256_init(&ctx, err);
     if (rc)
         return rc;
@@ -94,7 +95,7 @@ int kiln_hmac_sha256(const void *key, size_t keylen, const void *msg, size_t msg
     } else if (keylen) {
         memcpy(k, key, keylen);
     }
-    struct kiln_sha256 ctx;
+    struct kiln_sha256 ctx = {NULL};
     rc = kiln_sha256_init(&ctx, err);
     if (rc)
         return rc;
