@@ -1,6 +1,7 @@
 /* kiln audit: report every group, identical file, identical picture and near-identical picture
  * that spans two splits, and classes missing from a split. */
 #include <getopt.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -13,8 +14,9 @@ static void help(void)
 {
     printf("usage: kiln audit OUTDIR | catalog.csv [options]\n\n"
            "Lists every group (one specimen), set of identical files, set of identical decoded\n"
-           "pictures and pair of near-identical pictures whose items lie in different splits,\n"
-           "with the items, and warns about classes missing from a split. Exit status 6 when\n"
+           "pictures and cluster of near-identical pictures (linked by pairs of difference hashes\n"
+           "within BITS bits) whose items lie in different splits, with the items, and warns\n"
+           "about classes missing from a split. Exit status 6 when\n"
            "anything spans two splits, 0 otherwise.\n\n"
            "options:\n"
            "  --near BITS          near-duplicate radius in bits of the difference hash\n"
@@ -89,7 +91,7 @@ int cmd_audit(int argc, char **argv)
         free(path);
         return KILN_EXIT_FAILURE;
     }
-    cli_print_audit(stdout, &a, &cat, quiet);
+    cli_print_audit(stdout, &a, &cat, quiet, SIZE_MAX, "");
     int exit_code = a.nleaks ? KILN_EXIT_LEAK : KILN_EXIT_OK;
     kiln_audit_free(&a);
     kiln_catalog_free(&cat);

@@ -95,10 +95,11 @@ struct kiln_pack_report;
 void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recipe *r,
                             const struct kiln_pack_report *rep, double seconds);
 
-/* Prints audit findings (each with its items and splits) and missing classes. */
+/* Prints audit findings (each with its items and splits; at most limit findings and limit items
+ * a finding, then a line pointing at `kiln audit RERUN` for the rest) and missing classes. */
 struct kiln_audit;
 void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
-                     bool quiet);
+                     bool quiet, size_t limit, const char *rerun);
 
 /* The path of the JSON record that sits beside a catalogue ("x.csv" -> "x.json"); malloc'ed. */
 char *cli_catalog_record_path(const char *catalog_csv);

@@ -495,9 +495,14 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
 }
 
 void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
-                     bool quiet)
+                     bool quiet, size_t limit, const char *rerun)
 {
     for (size_t l = 0; l < a->nleaks; l++) {
+        if (l == limit) {
+            fprintf(f, "... and %zu more findings (kiln audit %s lists them all)\n",
+                    a->nleaks - limit, rerun);
+            break;
+        }
         const struct kiln_leak *lk = &a->leaks[l];
         const struct kiln_item *first = &cat->items[a->items[lk->first]];
         fprintf(f, "LEAK %s", kiln_leak_kind_name(lk->kind));
@@ -505,6 +510,10 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
             fprintf(f, " '%s'", first->group);
         fputs(":\n", f);
         for (size_t k = 0; k < lk->count; k++) {
+            if (k == limit) {
+                fprintf(f, "  ... and %zu more items\n", lk->count - limit);
+                break;
+            }
             const struct kiln_item *it = &cat->items[a->items[lk->first + k]];
             char rel[4096];
             kiln_item_relname(it->path, it->member, rel, sizeof rel);
@@ -522,7 +531,7 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
             snprintf(near, sizeof near, ", near duplicates within %d bits", a->near_bits);
         if (a->nleaks)
             fprintf(f, "%zu findings span two splits: %zu groups, %zu identical files, %zu identical "
-                       "pictures, %zu near-duplicate pairs\n",
+                       "pictures, %zu near-duplicate clusters\n",
                     a->nleaks, a->per_kind[KILN_LEAK_GROUP], a->per_kind[KILN_LEAK_BYTES],
                     a->per_kind[KILN_LEAK_PIXELS], a->per_kind[KILN_LEAK_NEAR]);
         else

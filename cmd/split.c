@@ -95,7 +95,10 @@ int cmd_split(int argc, char **argv)
     json_object_set_new(rec, "catalog", json_string(output));
     json_t *srec = kiln_split_record(&p, &units, &rep);
     struct kiln_audit audit;
-    bool audited = kiln_audit_run(&cat, p.near_bits >= 0 ? p.near_bits : 6, NULL, &audit, &err) == 0;
+    struct kiln_err aerr = {0};
+    bool audited = kiln_audit_run(&cat, p.near_bits >= 0 ? p.near_bits : 6, NULL, &audit, &aerr) == 0;
+    if (!audited)
+        cli_warn("the leakage audit could not run: %s (the split is written without it)", aerr.msg);
     if (audited)
         json_object_set_new(srec, "audit", kiln_audit_record(&audit, &cat));
     json_object_set_new(rec, "split", srec);
@@ -137,7 +140,7 @@ int cmd_split(int argc, char **argv)
     }
     if (audited) {
         if (exit_code == KILN_EXIT_OK)
-            cli_print_audit(stdout, &audit, &cat, quiet);
+            cli_print_audit(stdout, &audit, &cat, quiet, 20, output);
         kiln_audit_free(&audit);
     }
     json_decref(rec);

@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "checked.h"
+#include "disjoint.h"
 #include "neardup.h"
 
 static const char *const kind_names[KILN_LEAK_KINDS] = {"group", "identical-file",
@@ -46,6 +47,12 @@ static int cmp_digest(const void *x, const void *y)
     const struct keyed *a = x, *b = y;
     int c = memcmp(a->key, b->key, KILN_SHA256_LEN);
     return c ? c : (a->index > b->index) - (a->index < b->index);
+}
+
+static int cmp_u64(const void *x, const void *y)
+{
+    uint64_t a = *(const uint64_t *)x, b = *(const uint64_t *)y;
+    return (a > b) - (a < b);
 }
 
 static int cmp_string(const void *x, const void *y)
@@ -93,6 +100,62 @@ static int equal_key_leaks(const struct kiln_catalog *cat, int kind, struct keye
     return 0;
 }
 
+/* Near duplicates: the connected components of "within BITS bits" among split items with a
+ * difference hash, found from links (neardup.h), so a cluster of k alike pictures costs O(k)
+ * rather than k^2 pairs. A cluster whose items lie in two splits is one finding, its items in
+ * catalogue order; findings are ordered by their first item. */
+static int near_clusters(const struct kiln_catalog *cat, unsigned bits, uint32_t *tmp,
+                         struct kiln_audit *a, struct kiln_err *err)
+{
+    size_t n = cat->n;
+    uint64_t *hash = kiln_alloc_array(n ? n : 1, sizeof *hash);
+    uint8_t *use = kiln_alloc_array(n ? n : 1, sizeof *use);
+    struct kiln_uf uf = {kiln_alloc_array(n ? n : 1, sizeof(uint32_t))};
+    uint64_t *order = kiln_alloc_array(n ? n : 1, sizeof *order);
+    struct kiln_pairs links = {NULL, 0, 0};
+    int rc = KILN_OK;
+    if (!hash || !use || !uf.parent || !order) {
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate audit hashes for %zu items", n);
+        goto done;
+    }
+    for (size_t i = 0; i < n; i++) {
+        const struct kiln_item *it = &cat->items[i];
+        use[i] = it->split != KILN_SPLIT_NONE && it->has_pixels;
+        hash[i] = use[i] ? it->phash : 0;
+        uf.parent[i] = (uint32_t)i;
+    }
+    rc = kiln_neardup_links(hash, use, n, bits, &links, err);
+    if (rc)
+        goto done;
+    for (size_t k = 0; k < links.n; k++)
+        kiln_uf_union(&uf, links.pair[k][0], links.pair[k][1]);
+    /* (root, item) keys sort each cluster together, clusters by their smallest item. */
+    size_t m = 0;
+    for (size_t i = 0; i < n; i++)
+        if (use[i])
+            order[m++] = (uint64_t)kiln_uf_find(&uf, (uint32_t)i) << 32 | i;
+    qsort(order, m, sizeof *order, cmp_u64);
+    for (size_t i = 0, j; i < m && !rc; i = j) {
+        bool mixed = false;
+        int s0 = cat->items[(uint32_t)order[i]].split;
+        for (j = i + 1; j < m && order[j] >> 32 == order[i] >> 32; j++)
+            mixed |= cat->items[(uint32_t)order[j]].split != s0;
+        if (!mixed)
+            continue;
+        for (size_t k = i; k < j; k++)
+            tmp[k - i] = (uint32_t)order[k];
+        if (add_leak(a, KILN_LEAK_NEAR, tmp, j - i))
+            rc = kiln_err_set(err, KILN_ENOMEM, "cannot record audit findings");
+    }
+done:
+    kiln_pairs_free(&links);
+    free(hash);
+    free(use);
+    free(uf.parent);
+    free(order);
+    return rc;
+}
+
 int kiln_audit_run(const struct kiln_catalog *cat, int near_bits, const bool *present,
                    struct kiln_audit *out, struct kiln_err *err)
 {
@@ -107,27 +170,8 @@ int kiln_audit_run(const struct kiln_catalog *cat, int near_bits, const bool *pr
         if (equal_key_leaks(cat, kind, buf, tmp, out))
             rc = kiln_err_set(err, KILN_ENOMEM, "cannot record audit findings");
     free(buf);
-    if (!rc && near_bits >= 0) {
-        uint64_t *hash = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *hash);
-        size_t n = 0;
-        if (!hash)
-            rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate audit hashes");
-        for (size_t i = 0; !rc && i < cat->n; i++)
-            if (cat->items[i].split != KILN_SPLIT_NONE && cat->items[i].has_pixels) {
-                hash[n] = cat->items[i].phash;
-                tmp[n++] = (uint32_t)i;
-            }
-        struct kiln_pairs pairs = {NULL, 0, 0};
-        if (!rc)
-            rc = kiln_neardup_pairs(hash, n, (unsigned)near_bits, &pairs, err);
-        for (size_t k = 0; !rc && k < pairs.n; k++) {
-            uint32_t pr[2] = {tmp[pairs.pair[k][0]], tmp[pairs.pair[k][1]]};
-            if (cat->items[pr[0]].split != cat->items[pr[1]].split && add_leak(out, KILN_LEAK_NEAR, pr, 2))
-                rc = kiln_err_set(err, KILN_ENOMEM, "cannot record audit findings");
-        }
-        kiln_pairs_free(&pairs);
-        free(hash);
-    }
+    if (!rc && near_bits >= 0)
+        rc = near_clusters(cat, (unsigned)near_bits, tmp, out, err);
     free(tmp);
     /* Classes missing from a split that exists while present elsewhere. */
     if (!rc && cat->nclasses) {

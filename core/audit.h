@@ -16,7 +16,8 @@ enum kiln_leak_kind { KILN_LEAK_GROUP = 0, KILN_LEAK_BYTES, KILN_LEAK_PIXELS, KI
 const char *kiln_leak_kind_name(int kind); /* "group", "identical-file", ... */
 
 /* One finding: the items (indices into the catalogue) of one group, one set of identical
- * files or pixels, or one near-duplicate pair, whose splits differ. */
+ * files or pixels, or one cluster of near-identical pictures (connected through pairs within
+ * the radius), whose splits differ. */
 struct kiln_leak {
     int kind;
     size_t first, count; /* range in kiln_audit.items */

@@ -51,6 +51,19 @@ struct scan {
     struct kiln_pairs *out;
 };
 
+static int push_pair(struct kiln_pairs *out, uint32_t i, uint32_t j)
+{
+    size_t need;
+    void *p = out->pair;
+    if (!kiln_add_size(out->n, 1, &need) || !kiln_grow(&p, &out->cap, need, sizeof *out->pair))
+        return KILN_ENOMEM;
+    out->pair = p;
+    out->pair[out->n][0] = i;
+    out->pair[out->n][1] = j;
+    out->n++;
+    return KILN_OK;
+}
+
 /* Called only for pairs within the radius, which are rare, so it stays out of the inner loop. */
 __attribute__((noinline)) static int scan_emit(const struct scan *sc, size_t a, size_t b)
 {
@@ -58,17 +71,8 @@ __attribute__((noinline)) static int scan_emit(const struct scan *sc, size_t a, 
     for (unsigned s = 0; s < sc->table; s++)
         if ((d & sc->mask[s]) == 0)
             return KILN_OK; /* table s found it */
-    struct kiln_pairs *out = sc->out;
-    size_t need;
-    void *p = out->pair;
-    if (!kiln_add_size(out->n, 1, &need) || !kiln_grow(&p, &out->cap, need, sizeof *out->pair))
-        return KILN_ENOMEM;
-    out->pair = p;
     assert(sc->index[a] < sc->index[b]);
-    out->pair[out->n][0] = sc->index[a];
-    out->pair[out->n][1] = sc->index[b];
-    out->n++;
-    return KILN_OK;
+    return push_pair(sc->out, sc->index[a], sc->index[b]);
 }
 
 /* All pairs of one bucket [begin, end). This loop is where the time goes (about n^2/158
@@ -280,5 +284,71 @@ done:
     free(hb);
     free(ib);
     free(count);
+    return rc;
+}
+
+struct hashed {
+    uint64_t hash;
+    uint32_t index;
+};
+
+static int cmp_hashed(const void *x, const void *y)
+{
+    const struct hashed *a = x, *b = y;
+    if (a->hash != b->hash)
+        return a->hash < b->hash ? -1 : 1;
+    return (a->index > b->index) - (a->index < b->index);
+}
+
+int kiln_neardup_links(const uint64_t *hash, const uint8_t *use, size_t n, unsigned radius,
+                       struct kiln_pairs *out, struct kiln_err *err)
+{
+    if (radius > KILN_NEARDUP_MAX_RADIUS || n > UINT32_MAX || !out || (!hash && n > 0))
+        return kiln_neardup_pairs_masked(hash, use, n, radius, out, err); /* its messages */
+    size_t nu = 0;
+    for (size_t i = 0; i < n; i++)
+        nu += !use || use[i];
+    if (nu < 2)
+        return KILN_OK;
+    struct hashed *rec = kiln_alloc_array(nu, sizeof *rec);
+    uint64_t *value = kiln_alloc_array(nu, sizeof *value);
+    uint32_t *rep = kiln_alloc_array(nu, sizeof *rep);
+    struct kiln_pairs near = {NULL, 0, 0};
+    size_t n0 = out->n, nd = 0;
+    int rc = KILN_OK;
+    if (!rec || !value || !rep) {
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the near-duplicate index for %zu hashes", nu);
+        goto done;
+    }
+    for (size_t i = 0, k = 0; i < n; i++)
+        if (!use || use[i])
+            rec[k++] = (struct hashed){hash[i], (uint32_t)i};
+    qsort(rec, nu, sizeof *rec, cmp_hashed);
+    /* Equal hashes: link each to the smallest index holding that value, which represents it. */
+    for (size_t k = 0; k < nu && !rc; k++) {
+        if (k == 0 || rec[k].hash != rec[k - 1].hash) {
+            value[nd] = rec[k].hash;
+            rep[nd++] = rec[k].index;
+            continue;
+        }
+        if (push_pair(out, rep[nd - 1], rec[k].index))
+            rc = kiln_err_set(err, KILN_ENOMEM, "cannot grow the near-duplicate link list");
+    }
+    if (!rc)
+        rc = kiln_neardup_pairs(value, nd, radius, &near, err);
+    for (size_t k = 0; k < near.n && !rc; k++) {
+        uint32_t a = rep[near.pair[k][0]], b = rep[near.pair[k][1]];
+        if (push_pair(out, a < b ? a : b, a < b ? b : a))
+            rc = kiln_err_set(err, KILN_ENOMEM, "cannot grow the near-duplicate link list");
+    }
+    if (rc)
+        out->n = n0;
+    else if (out->n > n0)
+        sort_output(out->pair + n0, out->n - n0, n);
+done:
+    kiln_pairs_free(&near);
+    free(rec);
+    free(value);
+    free(rep);
     return rc;
 }

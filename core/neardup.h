@@ -60,6 +60,18 @@ int kiln_neardup_pairs(const uint64_t *hash, size_t n, unsigned radius, struct k
 int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n,
                               unsigned radius, struct kiln_pairs *out, struct kiln_err *err);
 
+/* Links whose connected components are exactly those of the pairs kiln_neardup_pairs_masked
+ * would return, without listing every pair: items with equal hashes are each linked to the
+ * smallest index holding that hash (k - 1 links for k equal hashes, where all pairs would be
+ * k(k-1)/2), and the multi-index search runs over the distinct hash values only, each pair of
+ * values within the radius becoming one link between their smallest indices. So a data set
+ * of many blank or identical pictures (all hashing alike) costs O(n log n) time and memory
+ * instead of O(n^2). Links are appended to out sorted by (i, j) with i < j; same arguments,
+ * errors and contract on out as kiln_neardup_pairs_masked. The union-find of units (units.c)
+ * and the audit's clusters (audit.c) need only the components, so both use this. */
+int kiln_neardup_links(const uint64_t *hash, const uint8_t *use, size_t n, unsigned radius,
+                       struct kiln_pairs *out, struct kiln_err *err);
+
 /* The substring split used for radius (see the comment at the top): fills start[t] (bit offset
  * from the most significant bit, 0..63) and len[t] (bits) for t = 0..m-1 and returns
  * m = radius + 1; returns 0 and writes nothing when radius > KILN_NEARDUP_MAX_RADIUS. Either

@@ -374,25 +374,20 @@ int kiln_split_run(struct kiln_catalog *cat, const struct kiln_split_params *p,
     struct kiln_pairs near = {NULL, 0, 0};
     int rc = KILN_OK;
     if (p->near_bits >= 0) {
-        /* Only ok items with a difference hash take part; map compact indices back. */
+        /* Only ok items with a difference hash take part. Units need the components only, so
+         * links stand in for the full pair list (neardup.h). */
         uint64_t *hash = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *hash);
-        uint32_t *item = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *item);
-        size_t n = 0;
-        if (!hash || !item)
+        uint8_t *use = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *use);
+        if (!hash || !use)
             rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate %zu hashes", cat->n);
-        for (size_t i = 0; !rc && i < cat->n; i++)
-            if (cat->items[i].status == KILN_ST_OK && cat->items[i].has_pixels) {
-                hash[n] = cat->items[i].phash;
-                item[n++] = (uint32_t)i;
-            }
-        if (!rc)
-            rc = kiln_neardup_pairs(hash, n, (unsigned)p->near_bits, &near, err);
-        for (size_t k = 0; !rc && k < near.n; k++) {
-            near.pair[k][0] = item[near.pair[k][0]];
-            near.pair[k][1] = item[near.pair[k][1]];
+        for (size_t i = 0; !rc && i < cat->n; i++) {
+            use[i] = cat->items[i].status == KILN_ST_OK && cat->items[i].has_pixels;
+            hash[i] = use[i] ? cat->items[i].phash : 0;
         }
+        if (!rc)
+            rc = kiln_neardup_links(hash, use, cat->n, (unsigned)p->near_bits, &near, err);
         free(hash);
-        free(item);
+        free(use);
     }
     if (!rc)
         rc = kiln_units_build(cat, p->near_bits >= 0 ? &near : NULL, units, err);

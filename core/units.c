@@ -6,33 +6,7 @@
 #include <string.h>
 
 #include "checked.h"
-
-struct uf {
-    uint32_t *parent;
-};
-
-static uint32_t uf_find(struct uf *u, uint32_t x)
-{
-    while (u->parent[x] != x) {
-        u->parent[x] = u->parent[u->parent[x]];
-        x = u->parent[x];
-    }
-    return x;
-}
-
-/* The smaller index becomes the root, so the structure does not depend on union order. */
-static bool uf_union(struct uf *u, uint32_t a, uint32_t b)
-{
-    a = uf_find(u, a);
-    b = uf_find(u, b);
-    if (a == b)
-        return false;
-    if (a < b)
-        u->parent[b] = a;
-    else
-        u->parent[a] = b;
-    return true;
-}
+#include "disjoint.h"
 
 /* qsort has no context argument, so relations sort (value pointer, item index) pairs. */
 struct keyed {
@@ -62,7 +36,7 @@ static int cmp_u64(const void *a, const void *b)
 
 enum relation { REL_BYTES, REL_PIXELS, REL_GROUP };
 
-static size_t join_equal(const struct kiln_catalog *cat, struct uf *uf, struct keyed *buf,
+static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, struct keyed *buf,
                          enum relation rel)
 {
     size_t n = 0;
@@ -83,7 +57,7 @@ static size_t join_equal(const struct kiln_catalog *cat, struct uf *uf, struct k
     for (size_t i = 1; i < n; i++) {
         bool same = rel == REL_GROUP ? strcmp(buf[i - 1].key, buf[i].key) == 0
                                      : memcmp(buf[i - 1].key, buf[i].key, KILN_SHA256_LEN) == 0;
-        if (same && uf_union(uf, buf[i - 1].index, buf[i].index))
+        if (same && kiln_uf_union(uf, buf[i - 1].index, buf[i].index))
             joined++;
     }
     return joined;
@@ -114,7 +88,7 @@ int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *ex
     memset(out, 0, sizeof *out);
     if (cat->n >= KILN_NO_UNIT)
         return kiln_err_set(err, KILN_ETOOLARGE, "catalogue of %zu rows is too large", cat->n);
-    struct uf uf = {kiln_alloc_array(cat->n, sizeof(uint32_t))};
+    struct kiln_uf uf = {kiln_alloc_array(cat->n, sizeof(uint32_t))};
     struct keyed *buf = kiln_alloc_array(cat->n, sizeof *buf);
     out->unit_of = kiln_alloc_array(cat->n, sizeof *out->unit_of);
     if (!uf.parent || !buf || !out->unit_of) {
@@ -134,7 +108,7 @@ int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *ex
         for (size_t i = 0; i < extra->n; i++) {
             uint32_t a = extra->pair[i][0], b = extra->pair[i][1];
             if (a < cat->n && b < cat->n && cat->items[a].status == KILN_ST_OK &&
-                cat->items[b].status == KILN_ST_OK && uf_union(&uf, a, b))
+                cat->items[b].status == KILN_ST_OK && kiln_uf_union(&uf, a, b))
                 out->merged_near++;
         }
 
@@ -142,7 +116,7 @@ int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *ex
     size_t nunits = 0;
     for (size_t i = 0; i < cat->n; i++) {
         out->unit_of[i] = KILN_NO_UNIT;
-        if (cat->items[i].status == KILN_ST_OK && uf_find(&uf, (uint32_t)i) == i)
+        if (cat->items[i].status == KILN_ST_OK && kiln_uf_find(&uf, (uint32_t)i) == i)
             out->unit_of[i] = (uint32_t)nunits++;
     }
     out->units = kiln_alloc_array(nunits, sizeof *out->units);
@@ -160,7 +134,7 @@ int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *ex
     for (size_t i = 0; i < cat->n; i++) {
         if (cat->items[i].status != KILN_ST_OK)
             continue;
-        uint32_t u = out->unit_of[uf_find(&uf, (uint32_t)i)];
+        uint32_t u = out->unit_of[kiln_uf_find(&uf, (uint32_t)i)];
         out->unit_of[i] = u;
         struct kiln_unit *un = &out->units[u];
         if (un->size == 0) {
