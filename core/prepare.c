@@ -1,6 +1,7 @@
 /* The per-image transformation chain of pack. */
 #include "prepare.h"
 
+#include <stdbool.h>
 #include <string.h>
 
 #include "convert.h"
@@ -97,7 +98,11 @@ int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct ki
             return rc;
         cur = &p->a;
     }
-    if (cur->channels != r->channels) {
+    /* Grey to RGB or RGBA only copies (and adds an opaque alpha, which resampling keeps exactly
+     * constant), so it commutes with resampling and depth conversion bit for bit: doing it last
+     * resamples one channel instead of three or four. */
+    const bool widen_late = cur->channels == 1 && r->channels >= 3;
+    if (cur->channels != r->channels && !widen_late) {
         struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
         rc = kiln_convert_channels(cur, r->channels, r->background, dst, err);
         if (rc)
@@ -116,6 +121,13 @@ int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct ki
     if (cur->depth != r->depth) {
         struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
         rc = kiln_convert_depth(cur, r->depth, dst, err);
+        if (rc)
+            return rc;
+        cur = dst;
+    }
+    if (widen_late) {
+        struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
+        rc = kiln_convert_channels(cur, r->channels, r->background, dst, err);
         if (rc)
             return rc;
         cur = dst;

@@ -19,6 +19,11 @@ struct kiln_queue {
     bool closed;
 };
 
+/* File bytes in flight between a reader and its workers, unless a stage is told otherwise:
+ * enough for a few dozen camera files, so decoders never wait on the reader, and a fixed share
+ * of the memory target (docs/performance.md). */
+#define KILN_QUEUE_BYTES_DEFAULT ((size_t)16 << 20)
+
 int kiln_queue_init(struct kiln_queue *q, size_t max_entries, size_t max_bytes,
                     struct kiln_err *err);
 void kiln_queue_destroy(struct kiln_queue *q);

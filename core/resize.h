@@ -42,6 +42,9 @@ struct kiln_resize_axis {
     uint32_t in_size, out_size, ksize;
     uint32_t *first, *count;
     int32_t *coef;
+    /* Largest sum of the positive and of the negative weights of any output: they bound every
+     * partial sum, so 8-bit samples can accumulate in 32 bits when 255 times each fits. */
+    int64_t max_pos, max_neg;
 };
 
 /* Builds the coefficient table mapping [box0, box0 + box_size) of an in_size axis onto out_size

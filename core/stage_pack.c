@@ -472,6 +472,7 @@ static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln
                                        info.max_scale_denom);
         rc = kiln_decoded_shape(&info, denom, &w->img, e);
     }
+    info.trusted = 1; /* the SHA-256 check above passed */
     if (!rc)
         rc = dec->decode(j->data, j->size, &info, denom, &w->img, e);
     if (!rc)
@@ -829,7 +830,7 @@ static int run_workers(struct pack_run *run, struct kiln_err *err)
     unsigned jobs = o->jobs ? o->jobs : 1;
     struct pack_worker *w = calloc(jobs, sizeof *w);
     pthread_t *tid = calloc(jobs, sizeof *tid);
-    int rc = kiln_queue_init(&run->q, 1024, o->queue_bytes ? o->queue_bytes : (64u << 20), err);
+    int rc = kiln_queue_init(&run->q, 1024, o->queue_bytes ? o->queue_bytes : KILN_QUEUE_BYTES_DEFAULT, err);
     if (rc || !w || !tid) {
         free(w);
         free(tid);

@@ -33,7 +33,7 @@ void kiln_scan_opts_defaults(struct kiln_scan_opts *o)
     o->limits.max_pixels = 1ull << 28;
     o->limits.max_side = 65535;
     o->jobs = 1;
-    o->queue_bytes = 64u << 20;
+    o->queue_bytes = KILN_QUEUE_BYTES_DEFAULT;
 }
 
 void kiln_item_relname(const char *path, const char *member, char *buf, size_t len)

@@ -20,6 +20,10 @@ struct kiln_image_info {
     uint32_t pages;          /* images in the file (decode reads the first) */
     uint32_t max_scale_denom; /* largest power-of-two reduction decode can do itself (1 = none) */
     char note[96];           /* facts worth recording that do not change pixels, e.g. "sRGB" */
+    /* Set by the caller between read_info (which clears it) and decode when the bytes are known
+     * to equal bytes that decoded cleanly before (pack, after checking the recorded SHA-256):
+     * the decoder may then skip the format's own checksums. Pixels are the same either way. */
+    uint32_t trusted;
 };
 
 /* Limits checked from the header, before any pixel memory is allocated. */

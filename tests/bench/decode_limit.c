@@ -2,7 +2,11 @@
  * kiln's own decoders, at the JPEG DCT reduction pack would use for the given size, on N
  * threads, and does nothing else. kiln pack and build are measured against this.
  *
- *   kiln-bench-decode DIR WxH JOBS [--full]     (--full: no DCT reduction, as scan decodes) */
+ *   kiln-bench-decode DIR WxH JOBS [--full] [--trusted]
+ *
+ * --full: no DCT reduction, as scan decodes. --trusted: skip the formats' own checksums (PNG
+ * CRC-32 and Adler-32), as pack does once a file's SHA-256 matched; without it, checksums are
+ * verified, as scan and build must. */
 #include <ftw.h>
 #include <pthread.h>
 #include <stdatomic.h>
@@ -44,7 +48,8 @@ static int limit_add(const char *p, const struct stat *st, int type, struct FTW 
 struct limit_run {
     struct limit_files files;
     struct kiln_recipe recipe;
-    int full;
+    int full;    /* no DCT reduction, as scan decodes */
+    int trusted; /* skip the formats' own checksums, as pack does after its SHA-256 check */
     atomic_size_t next, decoded, failed;
 };
 
@@ -69,6 +74,7 @@ static void *limit_worker(void *arg)
                                    : kiln_prep_choose_denom(&run->recipe, info.width, info.height,
                                                             info.orientation, info.max_scale_denom);
             rc = kiln_decoded_shape(&info, d, &img, &err);
+            info.trusted = (uint32_t)run->trusted;
             if (rc == 0)
                 rc = dec->decode(data, size, &info, d, &img, &err);
         }
@@ -82,7 +88,7 @@ static void *limit_worker(void *arg)
 int main(int argc, char **argv)
 {
     if (argc < 4) {
-        fprintf(stderr, "usage: kiln-bench-decode DIR WxH JOBS [--full]\n");
+        fprintf(stderr, "usage: kiln-bench-decode DIR WxH JOBS [--full] [--trusted]\n");
         return 2;
     }
     struct limit_run run;
@@ -94,7 +100,14 @@ int main(int argc, char **argv)
         return 2;
     }
     int jobs = atoi(argv[3]);
-    run.full = argc > 4 && strcmp(argv[4], "--full") == 0;
+    for (int a = 4; a < argc; a++) {
+        if (strcmp(argv[a], "--full") == 0)
+            run.full = 1;
+        else if (strcmp(argv[a], "--trusted") == 0)
+            run.trusted = 1;
+        else
+            return 2;
+    }
     if (jobs < 1 || jobs > 256)
         return 2;
     limit_collect = &run.files;
