@@ -97,10 +97,10 @@ int cmd_split(int argc, char **argv)
     struct kiln_audit audit;
     struct kiln_err aerr = {0};
     bool audited = kiln_audit_run(&cat, p.near_bits >= 0 ? p.near_bits : 6, NULL, &audit, &aerr) == 0;
-    if (!audited)
-        cli_warn("the leakage audit could not run: %s (the split is written without it)", aerr.msg);
     if (audited)
         json_object_set_new(srec, "audit", kiln_audit_record(&audit, &cat));
+    else
+        cli_warn("the leakage audit could not run: %s (the split is written without it)", aerr.msg);
     json_object_set_new(rec, "split", srec);
     rc = kiln_catalog_csv_save(output, &cat, &err);
     if (!rc)
