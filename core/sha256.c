@@ -7,6 +7,7 @@
 int kiln_sha256_init(struct kiln_sha256 *ctx, struct kiln_err *err)
 {
     ctx->evp = NULL;
+    ctx->failed = false;
     EVP_MD_CTX *md = EVP_MD_CTX_new();
     if (!md)
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a SHA-256 context");
@@ -20,15 +21,21 @@ int kiln_sha256_init(struct kiln_sha256 *ctx, struct kiln_err *err)
 
 void kiln_sha256_update(struct kiln_sha256 *ctx, const void *data, size_t len)
 {
-    if (len)
-        EVP_DigestUpdate(ctx->evp, data, len);
+    if (len && !ctx->failed && EVP_DigestUpdate(ctx->evp, data, len) != 1)
+        ctx->failed = true;
 }
 
-void kiln_sha256_final(struct kiln_sha256 *ctx, uint8_t out[KILN_SHA256_LEN])
+int kiln_sha256_final(struct kiln_sha256 *ctx, uint8_t out[KILN_SHA256_LEN], struct kiln_err *err)
 {
     unsigned int n = 0;
-    EVP_DigestFinal_ex(ctx->evp, out, &n);
-    EVP_DigestInit_ex(ctx->evp, EVP_sha256(), NULL);
+    const bool ok = !ctx->failed && EVP_DigestFinal_ex(ctx->evp, out, &n) == 1 &&
+                    n == KILN_SHA256_LEN;
+    /* A context that cannot be re-armed stays failed, so its next digest reports it. */
+    ctx->failed = EVP_DigestInit_ex(ctx->evp, EVP_sha256(), NULL) != 1;
+    if (ok)
+        return KILN_OK;
+    memset(out, 0, KILN_SHA256_LEN);
+    return kiln_err_set(err, KILN_EINTERNAL, "libcrypto could not compute a SHA-256 digest");
 }
 
 void kiln_sha256_free(struct kiln_sha256 *ctx)
@@ -39,14 +46,14 @@ void kiln_sha256_free(struct kiln_sha256 *ctx)
 
 int kiln_sha256_buf(const void *data, size_t len, uint8_t out[KILN_SHA256_LEN], struct kiln_err *err)
 {
-    struct kiln_sha256 ctx = {NULL};
+    struct kiln_sha256 ctx = {NULL, false};
     int rc = kiln_sha256_init(&ctx, err);
     if (rc)
         return rc;
     kiln_sha256_update(&ctx, data, len);
-    kiln_sha256_final(&ctx, out);
+    rc = kiln_sha256_final(&ctx, out, err);
     kiln_sha256_free(&ctx);
-    return KILN_OK;
+    return rc;
 }
 
 void kiln_sha256_hex(const uint8_t digest[KILN_SHA256_LEN], char hex[KILN_SHA256_HEX])
@@ -95,7 +102,7 @@ int kiln_hmac_sha256(const void *key, size_t keylen, const void *msg, size_t msg
     } else if (keylen) {
         memcpy(k, key, keylen);
     }
-    struct kiln_sha256 ctx = {NULL};
+    struct kiln_sha256 ctx = {NULL, false};
     rc = kiln_sha256_init(&ctx, err);
     if (rc)
         return rc;
@@ -103,12 +110,14 @@ int kiln_hmac_sha256(const void *key, size_t keylen, const void *msg, size_t msg
         pad[i] = k[i] ^ 0x36;
     kiln_sha256_update(&ctx, pad, 64);
     kiln_sha256_update(&ctx, msg, msglen);
-    kiln_sha256_final(&ctx, inner);
-    for (int i = 0; i < 64; i++)
+    rc = kiln_sha256_final(&ctx, inner, err);
+    for (int i = 0; i < 64 && !rc; i++)
         pad[i] = k[i] ^ 0x5c;
-    kiln_sha256_update(&ctx, pad, 64);
-    kiln_sha256_update(&ctx, inner, sizeof inner);
-    kiln_sha256_final(&ctx, out);
+    if (!rc) {
+        kiln_sha256_update(&ctx, pad, 64);
+        kiln_sha256_update(&ctx, inner, sizeof inner);
+        rc = kiln_sha256_final(&ctx, out, err);
+    }
     kiln_sha256_free(&ctx);
-    return KILN_OK;
+    return rc;
 }

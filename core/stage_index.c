@@ -27,7 +27,11 @@ static int add_entry(void *arg, struct kiln_source_entry *e, struct kiln_err *er
     }
     struct kiln_index_entry *x = &idx->e[idx->n];
     kiln_sha256_update(&w->ctx, e->data, e->size);
-    kiln_sha256_final(&w->ctx, x->sha256);
+    int rc = kiln_sha256_final(&w->ctx, x->sha256, err);
+    if (rc) {
+        free(e->data);
+        return rc;
+    }
     x->size = e->size;
     x->source = kiln_arena_strdup(&idx->strings, e->root);
     x->path = kiln_arena_strdup(&idx->strings, e->path);

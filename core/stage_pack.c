@@ -1032,20 +1032,9 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
                     struct kiln_pack_report *rep, struct kiln_err *err)
 {
     memset(rep, 0, sizeof *rep);
-    struct pack_run run;
-    memset(&run, 0, sizeof run);
-    run.o = o;
-    run.cat = cat;
-    run.rep = rep;
-    run.pool_fd = -1;
-    pthread_mutex_init(&run.mu, NULL);
     const struct kiln_recipe *r = &o->recipe;
-    struct kiln_recipe ints = *r;
-    ints.dtype = r->depth == 16 ? KILN_OUT_U16 : KILN_OUT_U8;
-    run.int_record = kiln_recipe_record_bytes(&ints);
-    int rc = KILN_OK;
-    json_t *manifest = NULL;
     size_t packed = 0;
+    /* Checks that need no resources come first, so their early returns leak nothing. */
     for (size_t i = 0; i < cat->n; i++) {
         const struct kiln_item *it = &cat->items[i];
         if (it->split != KILN_SPLIT_NONE && it->status != KILN_ST_OK)
@@ -1058,10 +1047,26 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         return kiln_err_set(err, KILN_EINVAL,
                             "no catalogue row has a split (run kiln split first, or no file was "
                             "usable)");
+    struct pack_run run;
+    memset(&run, 0, sizeof run);
+    run.o = o;
+    run.cat = cat;
+    run.rep = rep;
+    run.pool_fd = -1;
+    struct kiln_recipe ints = *r;
+    ints.dtype = r->depth == 16 ? KILN_OUT_U16 : KILN_OUT_U8;
+    run.int_record = kiln_recipe_record_bytes(&ints);
+    if (!run.int_record)
+        return kiln_err_set(err, KILN_EINVAL, "the record size of %ux%ux%u overflows", r->width,
+                            r->height, r->channels);
+    int rc = pthread_mutex_init(&run.mu, NULL);
+    if (rc)
+        return kiln_err_sys(err, KILN_ENOMEM, rc, "cannot create a lock for the pack");
+    /* From here every path ends at the clean-up at the bottom. */
+    json_t *manifest = NULL;
     run.delivered = calloc(cat->n ? cat->n : 1, 1);
-    if (!run.delivered || !run.int_record)
-        return kiln_err_set(err, KILN_ENOMEM, "cannot plan the pack");
-    rc = plan_records(&run, err);
+    rc = run.delivered ? plan_records(&run, err)
+                       : kiln_err_set(err, KILN_ENOMEM, "cannot plan %zu records", cat->n);
     if (!rc)
         rc = o->pool ? KILN_OK : kiln_pack_prepare_outdir(o->outdir, err);
     if (!rc)
@@ -1074,7 +1079,11 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     char *recipe_text = kiln_json_dump(recipe);
     uint8_t rd[KILN_SHA256_LEN];
     char recipe_sha[KILN_SHA256_HEX] = "";
-    if (!rc && recipe_text && kiln_sha256_buf(recipe_text, strlen(recipe_text), rd, err) == 0)
+    if (!rc && !recipe_text)
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot serialise the recipe");
+    if (!rc)
+        rc = kiln_sha256_buf(recipe_text, strlen(recipe_text), rd, err);
+    if (!rc)
         kiln_sha256_hex(rd, recipe_sha);
     free(recipe_text);
     json_t *stats_all = json_object();

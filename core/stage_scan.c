@@ -178,9 +178,9 @@ int kiln_pixel_digest(const struct kiln_image *img, uint8_t out[32], struct kiln
         }
         kiln_sha256_update(&ctx, buf, k);
     }
-    kiln_sha256_final(&ctx, out);
+    rc = kiln_sha256_final(&ctx, out, err);
     kiln_sha256_free(&ctx);
-    return KILN_OK;
+    return rc;
 }
 
 int kiln_dhash(const struct kiln_image *img, struct kiln_image scratch[2], struct kiln_resizer *rs,

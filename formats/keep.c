@@ -86,7 +86,9 @@ int kiln_keep_load(const char *manifest_path, struct kiln_keep *k, struct kiln_e
         else if (strcmp(r.fields[f], "split") == 0)
             csplit = (int)f;
     }
-    if (got == 1 && (csha < 0 || csplit < 0))
+    if (got == 0)
+        rc = kiln_err_set(err, KILN_EINVAL, "%s is empty: not even a header row", items);
+    else if (got == 1 && (csha < 0 || csplit < 0))
         rc = kiln_err_set(err, KILN_EINVAL, "%s has no sha256 and split columns", items);
     size_t cap = 0;
     while (!rc && (got = kiln_csv_next(&r, err)) == 1) {
@@ -107,7 +109,8 @@ int kiln_keep_load(const char *manifest_path, struct kiln_keep *k, struct kiln_e
         rc = -got;
     kiln_csv_close(&r);
     if (!rc) {
-        qsort(k->e, k->n, sizeof *k->e, cmp_entry);
+        if (k->n > 1) /* k->e is NULL for a header-only file, and qsort may not take NULL */
+            qsort(k->e, k->n, sizeof *k->e, cmp_entry);
         size_t u = 0;
         for (size_t j = 0; j < k->n && !rc; j++) {
             if (u && memcmp(k->e[u - 1].sha256, k->e[j].sha256, KILN_SHA256_LEN) == 0) {

@@ -167,9 +167,9 @@ static int hash_range(int fd, uint64_t off, uint64_t len, uint8_t *buf,
         off += n;
         len -= n;
     }
-    kiln_sha256_final(&ctx, out);
+    rc = kiln_sha256_final(&ctx, out, err);
     kiln_sha256_free(&ctx);
-    return KILN_OK;
+    return rc;
 }
 
 static void encode_header(uint8_t *h, const struct kiln_kten_array *arrays, size_t narrays,

@@ -11,6 +11,8 @@
 
 #include "../core/sha256.h"
 
+#define HASH_BLOCK (1u << 20)
+
 /* Distinguishes temporary names within one process; the pid distinguishes processes. */
 static atomic_uint tmp_counter;
 
@@ -143,17 +145,20 @@ int kiln_pwrite_all(int fd, const void *buf, size_t len, long long off, struct k
 
 int kiln_file_sha256(const char *path, uint8_t out[32], uint64_t *size, struct kiln_err *err)
 {
+    *size = 0;
+    uint8_t *buf = malloc(HASH_BLOCK);
+    if (!buf)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a buffer to hash %s", path);
     int fd = open(path, O_RDONLY | O_CLOEXEC);
-    if (fd < 0)
+    if (fd < 0) {
+        free(buf);
         return kiln_err_sys(err, KILN_EIO, errno, "cannot open %s", path);
+    }
+    /* Everything that can fail without a context is done: from here one exit frees it. */
     struct kiln_sha256 ctx;
     int rc = kiln_sha256_init(&ctx, err);
-    uint8_t *buf = rc ? NULL : malloc(1u << 20);
-    if (!rc && !buf)
-        rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
-    *size = 0;
     while (!rc) {
-        ssize_t n = read(fd, buf, 1u << 20);
+        ssize_t n = read(fd, buf, HASH_BLOCK);
         if (n < 0 && errno == EINTR)
             continue;
         if (n < 0)
@@ -163,8 +168,9 @@ int kiln_file_sha256(const char *path, uint8_t out[32], uint64_t *size, struct k
         kiln_sha256_update(&ctx, buf, (size_t)n);
         *size += (uint64_t)n;
     }
-    if (buf) {
-        kiln_sha256_final(&ctx, out);
+    if (ctx.evp) {
+        if (!rc)
+            rc = kiln_sha256_final(&ctx, out, err);
         kiln_sha256_free(&ctx);
     }
     free(buf);

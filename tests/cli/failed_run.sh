@@ -5,7 +5,7 @@
 demo_data "$work/data"
 expect_exit 0 "$KILN" build "$work/data" -o "$work/out" --seed 1 --size 32 -q
 [ -f "$work/out/manifest.json" ] || fail "first build wrote no manifest"
-victim=$(find "$work/data" -name '*.png' | sort | head -n 1)
+victim=$(first_file "$work/data" -name '*.png')
 printf 'x' >> "$victim"
 expect_exit 0 "$KILN" scan "$work/data" -o "$work/c.csv" -q
 expect_exit 0 "$KILN" split "$work/c.csv" --seed 1 -q
@@ -16,6 +16,7 @@ grep -q "changed since it was scanned" "$work/stderr" || fail "message: $(cat "$
 for f in manifest.json SHA256SUMS; do
     [ ! -e "$work/out/$f" ] || fail "$f survived a failed run"
 done
-if ls -A "$work/out" | grep -q '\.tmp-'; then fail "temporary files left: $(ls -A "$work/out")"; fi
+left=$(ls -A "$work/out")
+[[ $left != *.tmp-* ]] || fail "temporary files left: $left"
 expect_exit 4 "$KILN" verify "$work/out"
 echo ok

@@ -40,6 +40,16 @@ expect_exit() {
     fi
 }
 
+# first_file FIND-ARGUMENTS...: the first path find prints, in byte order. The list is captured
+# whole: piping it into head would let head exit early and kill find or sort with SIGPIPE, which
+# set -o pipefail turns into a failure of the test now and then.
+first_file() {
+    local all
+    all=$(find "$@" | LC_ALL=C sort)
+    [ -n "$all" ] || fail "find $* found nothing"
+    printf '%s\n' "${all%%$'\n'*}"
+}
+
 # demo_data DIR: generates the demo data set; DIR becomes its class-folder root (crawling/,
 # crazing/, pinholing/, sound/), so the folder label rule sees the four classes.
 demo_data() {

@@ -35,7 +35,7 @@ expect_exit 0 "$KILN" verify "$work/v1" --source "$work/lab"
 grep -q "all 196 recorded files found (196 moved, 7 extra files)" "$work/stdout" ||
     fail "verify --source summary: $(tail -n 2 "$work/stdout")"
 # One source file altered: both commands name it.
-victim=$(find "$work/lab/2027" -type f -size +2k | sort | head -n 1)
+victim=$(first_file "$work/lab/2027" -type f -size +2k)
 printf 'x' >> "$victim"
 expect_exit 5 "$KILN" verify "$work/v1" --source "$work/lab"
 grep -q "SOURCE MISSING" "$work/stdout" || fail "verify --source: $(cat "$work/stdout")"

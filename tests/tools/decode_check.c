@@ -124,8 +124,10 @@ int main(int argc, char **argv)
             }
             uint8_t d[KILN_SHA256_LEN];
             char hex[KILN_SHA256_HEX];
-            kiln_sha256_buf(be, n * (img.depth / 8), d, &err);
-            kiln_sha256_hex(d, hex);
+            if (kiln_sha256_buf(be, n * (img.depth / 8), d, &err) != KILN_OK)
+                snprintf(hex, sizeof hex, "(sha256 failed: %s)", err.msg);
+            else
+                kiln_sha256_hex(d, hex);
             print_result(name, "ok", dec->name, &info);
             printf("\t%s\t%lu", hex, crc32(crc32(0L, Z_NULL, 0), cut, (uInt)n));
             int bits, type;

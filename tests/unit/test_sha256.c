@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include "../../core/sha256.h"
+#include "faults.h"
 
 /* Digests of the SHA-256 example messages of FIPS 180-2/180-4 (appendix numbering from memory),
  * as listed in testdata CHECKS.md section 5 (taken from CPython's test_hashlib.py and verified
@@ -67,7 +68,7 @@ static void test_million_a(void **state)
     for (int i = 0; i < 1000; i++)
         kiln_sha256_update(&ctx, buf, 1000);
     uint8_t d[KILN_SHA256_LEN];
-    kiln_sha256_final(&ctx, d);
+    assert_int_equal(kiln_sha256_final(&ctx, d, &err), KILN_OK);
     kiln_sha256_hex(d, hex);
     assert_string_equal(hex, million_a_hex); /* FIPS 180-2, CHECKS.md s5 */
     kiln_sha256_free(&ctx);
@@ -94,7 +95,7 @@ static void test_chunked_updates(void **state)
             char hex[KILN_SHA256_HEX];
             kiln_sha256_update(&ctx, msgs[m], cut);
             kiln_sha256_update(&ctx, msgs[m] + cut, len - cut);
-            kiln_sha256_final(&ctx, d); /* also resets the context for the next round */
+            assert_int_equal(kiln_sha256_final(&ctx, d, &err), KILN_OK); /* also resets the context for the next round */
             kiln_sha256_hex(d, hex);
             assert_string_equal(hex, want[m]); /* FIPS 180-4 example, CHECKS.md s5 */
         }
@@ -113,7 +114,7 @@ static void test_chunked_updates(void **state)
     }
     uint8_t d[KILN_SHA256_LEN];
     char hex[KILN_SHA256_HEX];
-    kiln_sha256_final(&ctx, d);
+    assert_int_equal(kiln_sha256_final(&ctx, d, &err), KILN_OK);
     kiln_sha256_hex(d, hex);
     assert_string_equal(hex, million_a_hex); /* FIPS 180-2, CHECKS.md s5 */
     kiln_sha256_free(&ctx);
@@ -215,13 +216,55 @@ static void test_hmac_key_boundary(void **state)
     check_hmac(key, 65, "abc", "fb1e9b9f783337ca807b11cd396d1c31eb5267d95d2d2bb0f1d83ffafbbf64e9");
 }
 
+/* A refusal by libcrypto is an error of the digest, never a digest of whatever was fed: an
+ * update refused in the middle of a stream, or a refused final step, makes kiln_sha256_final
+ * fail (and zero its output), and the context works again for the next message. */
+static void test_libcrypto_refusals(void **state)
+{
+    (void)state;
+    struct kiln_err err = {0};
+    struct kiln_sha256 ctx;
+    uint8_t d[KILN_SHA256_LEN];
+    char hex[KILN_SHA256_HEX];
+    assert_int_equal(kiln_sha256_init(&ctx, &err), KILN_OK);
+    fault_update_prefix = "cdef";
+    kiln_sha256_update(&ctx, "ab", 2);
+    kiln_sha256_update(&ctx, "cdef", 4); /* refused */
+    kiln_sha256_update(&ctx, "gh", 2);
+    fault_reset();
+    memset(d, 0xee, sizeof d);
+    assert_int_equal(kiln_sha256_final(&ctx, d, &err), KILN_EINTERNAL);
+    assert_non_null(strstr(err.msg, "SHA-256"));
+    for (int i = 0; i < KILN_SHA256_LEN; i++)
+        assert_int_equal(d[i], 0);
+    /* The context was re-armed: "abc" again gives the FIPS 180-4 digest (CHECKS.md s5). */
+    kiln_sha256_update(&ctx, "abc", 3);
+    assert_int_equal(kiln_sha256_final(&ctx, d, &err), KILN_OK);
+    kiln_sha256_hex(d, hex);
+    assert_string_equal(hex, fips_vectors[1].hex);
+    /* A refused final step. */
+    kiln_sha256_update(&ctx, "abc", 3);
+    fault_final_count = 1;
+    assert_int_equal(kiln_sha256_final(&ctx, d, &err), KILN_EINTERNAL);
+    fault_reset();
+    kiln_sha256_free(&ctx);
+    /* The one-shot helpers pass the refusal on. */
+    fault_update_prefix = "Hi There";
+    assert_int_equal(kiln_sha256_buf("Hi There", 8, d, &err), KILN_EINTERNAL);
+    uint8_t key[20];
+    memset(key, 0x0b, sizeof key);
+    assert_int_equal(kiln_hmac_sha256(key, sizeof key, "Hi There", 8, d, &err), KILN_EINTERNAL);
+    fault_reset();
+    assert_int_equal(fault_evp_live, 0);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_fips_examples),     cmocka_unit_test(test_million_a),
         cmocka_unit_test(test_chunked_updates),   cmocka_unit_test(test_hex_round_trip),
         cmocka_unit_test(test_hex_rejects),       cmocka_unit_test(test_hmac_rfc4231),
-        cmocka_unit_test(test_hmac_key_boundary),
+        cmocka_unit_test(test_hmac_key_boundary), cmocka_unit_test(test_libcrypto_refusals),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

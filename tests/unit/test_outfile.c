@@ -1,0 +1,101 @@
+/* Unit tests for formats/outfile: whole-file SHA-256 against the FIPS 180-4 example, every
+ * failure path freeing what it took (fault injection, unit/faults.h), and messages that name
+ * the file the user asked for, never an internal temporary name. */
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <cmocka.h>
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include "../../core/sha256.h"
+#include "../../formats/outfile.h"
+#include "faults.h"
+
+static char tmpdir[64];
+
+static int setup(void **state)
+{
+    (void)state;
+    strcpy(tmpdir, "/tmp/kiln-test-outfile-XXXXXX");
+    return mkdtemp(tmpdir) ? 0 : -1;
+}
+
+static int teardown(void **state)
+{
+    (void)state;
+    fault_reset();
+    return fault_remove_tree(tmpdir);
+}
+
+static void write_file(const char *path, const char *text)
+{
+    FILE *f = fopen(path, "wb");
+    assert_non_null(f);
+    assert_int_equal(fwrite(text, 1, strlen(text), f), strlen(text));
+    assert_int_equal(fclose(f), 0);
+}
+
+static void test_file_sha256(void **state)
+{
+    (void)state;
+    char p[128], hex[KILN_SHA256_HEX];
+    snprintf(p, sizeof p, "%s/abc", tmpdir);
+    write_file(p, "abc");
+    uint8_t d[KILN_SHA256_LEN];
+    uint64_t size = 99;
+    struct kiln_err err = {0};
+    assert_int_equal(kiln_file_sha256(p, d, &size, &err), KILN_OK);
+    kiln_sha256_hex(d, hex);
+    /* FIPS 180-4 "abc" example (testdata CHECKS.md section 5). */
+    assert_string_equal(hex, "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad");
+    assert_int_equal(size, 3);
+    assert_int_equal(fault_evp_live, 0);
+}
+
+/* Every way kiln_file_sha256 can fail returns the libcrypto context it took and names the
+ * file: no read buffer, a folder instead of a file, a missing file, a refused digest. */
+static void test_file_sha256_failures(void **state)
+{
+    (void)state;
+    char p[128];
+    snprintf(p, sizeof p, "%s/abc", tmpdir);
+    write_file(p, "abc");
+    uint8_t d[KILN_SHA256_LEN];
+    uint64_t size;
+    struct kiln_err err = {0};
+
+    fault_malloc_size = 1u << 20; /* the read buffer */
+    assert_int_equal(kiln_file_sha256(p, d, &size, &err), KILN_ENOMEM);
+    fault_reset();
+    assert_non_null(strstr(err.msg, p));
+    assert_int_equal(fault_evp_live, 0);
+
+    assert_int_equal(kiln_file_sha256(tmpdir, d, &size, &err), KILN_EIO);
+    assert_non_null(strstr(err.msg, tmpdir));
+    assert_int_equal(fault_evp_live, 0);
+
+    char missing[160];
+    snprintf(missing, sizeof missing, "%s/missing", tmpdir);
+    assert_int_equal(kiln_file_sha256(missing, d, &size, &err), KILN_EIO);
+    assert_non_null(strstr(err.msg, missing));
+
+    fault_final_count = 1;
+    assert_int_equal(kiln_file_sha256(p, d, &size, &err), KILN_EINTERNAL);
+    fault_reset();
+    assert_int_equal(fault_evp_live, 0);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test_setup_teardown(test_file_sha256, setup, teardown),
+        cmocka_unit_test_setup_teardown(test_file_sha256_failures, setup, teardown),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
