@@ -11,7 +11,9 @@
 #include "../core/audit.h"
 #include "../core/checked.h"
 #include "../core/stage_pack.h"
+#include "../formats/decoder.h"
 #include "../formats/keep.h"
+#include "../formats/manifest.h"
 #include "../formats/source.h"
 #include "../core/version.h"
 #include "cmd.h"
@@ -57,6 +59,10 @@ int main(int argc, char **argv)
     }
     if (strcmp(argv[1], "--version") == 0) {
         printf("kiln %s\n", KILN_VERSION);
+        struct kiln_library_version v[KILN_MAX_LIBRARIES];
+        size_t n = kiln_library_versions(v, KILN_MAX_LIBRARIES);
+        for (size_t i = 0; i < n; i++)
+            printf("%s %s\n", v[i].library, v[i].version);
         return fflush(stdout) == 0 ? KILN_EXIT_OK : KILN_EXIT_FAILURE;
     }
     for (size_t i = 0; i < NCOMMANDS; i++)

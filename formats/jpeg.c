@@ -3,9 +3,13 @@
  * segments is an error, so a truncated stream never becomes a grey-padded picture. */
 #include <stdio.h> /* jpeglib.h needs FILE */
 
+#include <ctype.h>
 #include <jerror.h>
 #include <jpeglib.h>
+#include <link.h>
 #include <setjmp.h>
+#include <stdbool.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -205,14 +209,61 @@ static int jpeg_decode_fn(const uint8_t *data, size_t len, const struct kiln_ima
     return KILN_OK;
 }
 
+#define KILN_STR2(x) #x
+#define KILN_STR(x) KILN_STR2(x)
+
+/* dl_iterate_phdr visitor: in the loaded object that holds jpeg_std_error, finds the
+ * identification text "libjpeg-turbo version X (build Y)" in a readable segment. */
+struct jpeg_ident {
+    uintptr_t code;
+    char *buf;
+    size_t len;
+    bool found;
+};
+
+static int find_jpeg_ident(struct dl_phdr_info *info, size_t size, void *ctx)
+{
+    (void)size;
+    struct jpeg_ident *id = ctx;
+    bool mine = false;
+    for (int i = 0; i < info->dlpi_phnum && !mine; i++) {
+        const ElfW(Phdr) *ph = &info->dlpi_phdr[i];
+        uintptr_t lo = info->dlpi_addr + ph->p_vaddr;
+        mine = ph->p_type == PT_LOAD && id->code >= lo && id->code - lo < ph->p_memsz;
+    }
+    if (!mine)
+        return 0;
+    static const char needle[] = "libjpeg-turbo version ";
+    for (int i = 0; i < info->dlpi_phnum && !id->found; i++) {
+        const ElfW(Phdr) *ph = &info->dlpi_phdr[i];
+        if (ph->p_type != PT_LOAD || !(ph->p_flags & PF_R))
+            continue;
+        const char *seg = (const char *)(info->dlpi_addr + ph->p_vaddr);
+        const char *hit = memmem(seg, ph->p_memsz, needle, sizeof needle - 1);
+        if (!hit)
+            continue;
+        const char *v = hit + sizeof needle - 1, *end = seg + ph->p_memsz;
+        size_t n = 0;
+        while (v + n < end && n < 32 && (isdigit((unsigned char)v[n]) || v[n] == '.'))
+            n++;
+        if (n && n < id->len) {
+            snprintf(id->buf, id->len, "%.*s", (int)n, v);
+            id->found = true;
+        }
+    }
+    return 1; /* the object was found; stop */
+}
+
 static void jpeg_library_version(char *buf, size_t len)
 {
-    /* libjpeg-turbo has no version call; its message table, compiled into the shared library,
-     * carries the run-time version string. */
-    struct jpeg_error_mgr e;
-    jpeg_std_error(&e);
-    const char *v = e.jpeg_message_table[JMSG_VERSION];
-    snprintf(buf, len, "%s", v ? v : "unknown");
+    /* libjpeg-turbo has no version call, and the version in its message table is that of the
+     * libjpeg API it emulates ("6b"). The shared library does carry its own identification
+     * text: read the version there, so an updated library is seen without rebuilding kiln;
+     * fall back to the version of the headers kiln was built with, and say so. */
+    struct jpeg_ident id = {(uintptr_t)&jpeg_std_error, buf, len, false};
+    dl_iterate_phdr(find_jpeg_ident, &id);
+    if (!id.found)
+        snprintf(buf, len, "%s (headers)", KILN_STR(LIBJPEG_TURBO_VERSION));
 }
 
 const struct kiln_decoder kiln_decoder_jpeg = {

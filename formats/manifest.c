@@ -193,16 +193,31 @@ json_t *kiln_stats_to_json(const struct kiln_stats *s, double maxval, struct kil
     return chans;
 }
 
+size_t kiln_library_versions(struct kiln_library_version *out, size_t max)
+{
+    size_t n = kiln_decoder_library_versions(out, max);
+    /* The numbers the loaded libraries report, without names or dates, so that a record
+     * compares with a package version (docs/formats.md, "libraries"). */
+    const int a = archive_version_number();
+    char numbers[4][48];
+    snprintf(numbers[0], sizeof numbers[0], "%s", zlibVersion());
+    snprintf(numbers[1], sizeof numbers[1], "%d.%d.%d", a / 1000000, a / 1000 % 1000, a % 1000);
+    snprintf(numbers[2], sizeof numbers[2], "%s", OpenSSL_version(OPENSSL_VERSION_STRING));
+    snprintf(numbers[3], sizeof numbers[3], "%s", jansson_version_str());
+    static const char *const names[4] = {"zlib", "libarchive", "openssl", "jansson"};
+    for (size_t i = 0; i < 4 && n < max; i++, n++) {
+        out[n].library = names[i];
+        memcpy(out[n].version, numbers[i], sizeof out[n].version);
+    }
+    return n;
+}
+
 json_t *kiln_library_versions_json(void)
 {
     json_t *j = json_object();
-    struct kiln_library_version v[8];
-    size_t n = kiln_decoder_library_versions(v, 8);
+    struct kiln_library_version v[KILN_MAX_LIBRARIES];
+    size_t n = kiln_library_versions(v, KILN_MAX_LIBRARIES);
     for (size_t i = 0; i < n; i++)
         json_object_set_new(j, v[i].library, json_string(v[i].version));
-    json_object_set_new(j, "zlib", json_string(zlibVersion()));
-    json_object_set_new(j, "libarchive", json_string(kiln_archive_library_version()));
-    json_object_set_new(j, "openssl", json_string(OpenSSL_version(OPENSSL_VERSION)));
-    json_object_set_new(j, "jansson", json_string(jansson_version_str()));
     return j;
 }

@@ -28,7 +28,13 @@ int kiln_recipe_from_json(const json_t *j, struct kiln_recipe *r, struct kiln_er
  * plus derived mean, standard deviations, min and max in the output scale and in [0,1]. */
 json_t *kiln_stats_to_json(const struct kiln_stats *s, double maxval, struct kiln_err *err);
 
-/* Run-time versions of every library that touches the bytes. */
+/* Run-time versions of every library that touches the bytes (decoders, zlib, libarchive,
+ * OpenSSL, jansson): the version number each loaded library reports. Returns how many were
+ * written (at most max; KILN_MAX_LIBRARIES holds them all). */
+#define KILN_MAX_LIBRARIES 12
+struct kiln_library_version;
+size_t kiln_library_versions(struct kiln_library_version *out, size_t max);
+/* The same as a JSON object {"libpng": "1.6.39", ...} for manifest.json. */
 json_t *kiln_library_versions_json(void);
 
 /* Helpers for readers of stage files: NULL or the value when it has the type. */
