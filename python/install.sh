@@ -32,4 +32,4 @@ cp -r "$here/pyproject.toml" "$here/kten" "$scratch/"
     --no-cache-dir --root-user-action=ignore --break-system-packages --force-reinstall \
     "${where[@]}" "$scratch" >&2
 # Import it from elsewhere than the source tree, as a user's script will.
-(cd / && "$py" -c 'import kten; print("kten", kten.__version__, "installed:", kten.__path__[0])')
+(cd / && "$py" -c 'import kten, sys; print("kten", kten.__version__, "installed for", sys.executable, "in", kten.__path__[0])')
