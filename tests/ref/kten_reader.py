@@ -170,6 +170,12 @@ def check_output(src8, src16, out):
         x_load, y_load = t.load()
         if not np.array_equal(x_load, x_norm) or y_load.dtype != np.int64:
             fail(f"{path}: load() differs from to_float() or labels are not int64")
+        try:
+            t.load(max_bytes=x_load.nbytes - 1)
+            fail(f"{path}: load() ignored its memory limit")
+        except MemoryError as e:
+            if path not in str(e):
+                fail(f"{path}: the memory refusal does not name the file: {e}")
         for k in range(len(t)):
             row = rows[int(t.item[k])]
             if (row["split"], int(row["index"])) != (s, k):
