@@ -19,28 +19,57 @@ void kiln_prep_free(struct kiln_prep *p)
     kiln_resizer_free(&p->rs);
 }
 
+/* A side decoded at 1/denom: ceil(side / denom), libjpeg's rounding. */
+static uint32_t reduced_side(uint32_t side, uint32_t denom)
+{
+    return (uint32_t)(((uint64_t)side + denom - 1) / denom);
+}
+
+/* The orientation prep applies: the stored value when orienting, 1 otherwise (kiln_orient also
+ * treats values outside 1..8 as 1). */
+static uint32_t applied_orientation(const struct kiln_recipe *r, uint32_t orientation)
+{
+    return r->orient && orientation >= 1 && orientation <= 8 ? orientation : 1;
+}
+
 uint32_t kiln_prep_choose_denom(const struct kiln_recipe *r, uint32_t w, uint32_t h,
                                 uint32_t orientation, uint32_t max_denom)
 {
-    if (!r->dct_scale || max_denom <= 1)
+    /* Nearest takes one full-size pixel and box has a window with hard edges; a block average
+     * can stand in for neither (docs/resize.md, "Reduced sources"). */
+    if (!r->dct_scale || max_denom <= 1 || r->filter == KILN_FILTER_NEAREST ||
+        r->filter == KILN_FILTER_BOX)
         return 1;
-    const int swap = r->orient && orientation >= 5 && orientation <= 8;
+    if (applied_orientation(r, orientation) >= 5) {
+        uint32_t t = w;
+        w = h;
+        h = t;
+    }
+    struct kiln_fit_geometry g;
+    kiln_fit_compute(w, h, r->width, r->height, r->fit, &g);
     uint32_t best = 1;
     for (uint32_t d = 2; d <= 8 && d <= max_denom; d *= 2) {
-        uint32_t sw = (uint32_t)(((uint64_t)w + d - 1) / d), sh = (uint32_t)(((uint64_t)h + d - 1) / d);
-        if (swap) {
-            uint32_t t = sw;
-            sw = sh;
-            sh = t;
-        }
-        struct kiln_fit_geometry g;
-        kiln_fit_compute(sw, sh, r->width, r->height, r->fit, &g);
-        if (g.src.w >= g.inner_w && g.src.h >= g.inner_h)
+        /* box / d >= 1.5 * inner on both axes, in integers. */
+        if (2 * (uint64_t)g.src.w >= 3 * (uint64_t)d * g.inner_w &&
+            2 * (uint64_t)g.src.h >= 3 * (uint64_t)d * g.inner_h)
             best = d;
         else
             break;
     }
     return best;
+}
+
+/* Where the pixels of a 1/denom decode lie on the full-size grid once oriented: orientations
+ * that reverse an axis (CIPA DC-008: x for 2, 3, 6, 7; y for 3, 4, 7, 8) bring the partial
+ * block of the stored image's far edge to the front, so the grid starts that part early. */
+static struct kiln_grid oriented_grid(uint32_t orientation, uint32_t denom, uint32_t full_w,
+                                      uint32_t full_h)
+{
+    const uint32_t over_w = (uint32_t)((uint64_t)reduced_side(full_w, denom) * denom - full_w);
+    const uint32_t over_h = (uint32_t)((uint64_t)reduced_side(full_h, denom) * denom - full_h);
+    const bool rev_x = orientation == 2 || orientation == 3 || orientation == 6 || orientation == 7;
+    const bool rev_y = orientation == 3 || orientation == 4 || orientation == 7 || orientation == 8;
+    return (struct kiln_grid){denom, rev_x ? over_w : 0, rev_y ? over_h : 0};
 }
 
 /* Writes the interleaved image into the record at (off_x, off_y), converting the layout. */
@@ -88,16 +117,25 @@ static void fill_pad(const struct kiln_recipe *r, void *out)
 }
 
 int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct kiln_image *img,
-                     uint32_t orientation, void *out, struct kiln_err *err)
+                     const struct kiln_prep_source *src, void *out, struct kiln_err *err)
 {
     int rc;
     struct kiln_image *cur = img;
-    if (r->orient && orientation >= 2 && orientation <= 8) {
-        rc = kiln_orient(cur, orientation, &p->a, err);
+    const uint32_t o = applied_orientation(r, src->orientation);
+    const bool swap = o >= 5;
+    const uint32_t full_w = swap ? src->height : src->width;
+    const uint32_t full_h = swap ? src->width : src->height;
+    if (o != 1 && !src->oriented) {
+        rc = kiln_orient(cur, o, &p->a, err);
         if (rc)
             return rc;
         cur = &p->a;
     }
+    if (src->denom < 1 || src->denom > 8 || cur->width != reduced_side(full_w, src->denom) ||
+        cur->height != reduced_side(full_h, src->denom))
+        return kiln_err_set(err, KILN_EINTERNAL,
+                            "decoded %ux%u is not a 1/%u decode of %ux%u after orientation",
+                            cur->width, cur->height, src->denom, full_w, full_h);
     /* Grey to RGB or RGBA only copies (and adds an opaque alpha, which resampling keeps exactly
      * constant), so it commutes with resampling and depth conversion bit for bit: doing it last
      * resamples one channel instead of three or four. */
@@ -110,10 +148,12 @@ int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct ki
         cur = dst;
     }
     struct kiln_fit_geometry g;
-    kiln_fit_compute(cur->width, cur->height, r->width, r->height, r->fit, &g);
+    kiln_fit_compute(full_w, full_h, r->width, r->height, r->fit, &g);
     {
+        const struct kiln_grid grid = oriented_grid(o, src->denom, full_w, full_h);
         struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
-        rc = kiln_resize(&p->rs, cur, &g.src, g.inner_w, g.inner_h, r->filter, dst, err);
+        rc = kiln_resize_grid(&p->rs, cur, &grid, &g.src, g.inner_w, g.inner_h, r->filter, dst,
+                              err);
         if (rc)
             return rc;
         cur = dst;

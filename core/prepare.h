@@ -3,6 +3,7 @@
 #ifndef KILN_PREPARE_H
 #define KILN_PREPARE_H
 
+#include <stdbool.h>
 #include <stdint.h>
 
 #include "err.h"
@@ -20,15 +21,26 @@ void kiln_prep_init(struct kiln_prep *p);
 void kiln_prep_free(struct kiln_prep *p);
 
 /* The JPEG-style reduction (1, 2, 4 or 8, at most max_denom) to decode a stored w x h image
- * at: the largest that keeps the fit's source box at least as large as the resampled size on
- * both axes, so the resampler only ever reduces further. 1 when r->dct_scale is off. */
+ * at: the largest whose reduced fit box, after orientation, is still at least 1.5 times the
+ * resampled size on both axes, so the resampler keeps reducing enough to hide the reduction
+ * (docs/pixels.md 1a gives the rule, docs/resize.md the measured quality). 1 when r->dct_scale
+ * is off and for the nearest and box filters. */
 uint32_t kiln_prep_choose_denom(const struct kiln_recipe *r, uint32_t w, uint32_t h,
                                 uint32_t orientation, uint32_t max_denom);
 
-/* Turns img (as decoded; it may be consumed as scratch) into one record of
+/* How the pixels given to kiln_prep_record relate to the stored picture. */
+struct kiln_prep_source {
+    uint32_t width, height; /* the stored picture at full size, before orientation */
+    uint32_t denom;         /* decoded at 1/denom (JPEG DCT reduction, sides rounded up); or 1 */
+    uint32_t orientation;   /* stored EXIF value; ignored when r->orient is false */
+    bool oriented;          /* the pixels already have that orientation applied */
+};
+
+/* Turns img (pixels as src describes; it may be consumed as scratch) into one record of
  * kiln_recipe_record_bytes(r) bytes at out, in r->depth integers (host order for 16-bit) and
- * r->layout. orientation is the stored EXIF value (ignored when r->orient is false). */
+ * r->layout. The fit is computed on the full-size oriented picture whatever the reduction, so a
+ * reduced decode changes no geometry. KILN_EINTERNAL when img's size does not match src. */
 int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct kiln_image *img,
-                     uint32_t orientation, void *out, struct kiln_err *err);
+                     const struct kiln_prep_source *src, void *out, struct kiln_err *err);
 
 #endif

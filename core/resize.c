@@ -118,17 +118,26 @@ static int32_t quantise(double w)
     return (int32_t)(s < 0 ? s - 0.5 : s + 0.5);
 }
 
-int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_t box0,
-                          uint32_t box_size, uint32_t out_size, int filter, struct kiln_err *err)
+int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_t denom,
+                          uint32_t shift, uint32_t box0, uint32_t box_size, uint32_t out_size,
+                          int filter, struct kiln_err *err)
 {
     memset(ax, 0, sizeof *ax);
-    if (in_size == 0 || out_size == 0 || box_size == 0 || box0 > in_size ||
-        box_size > in_size - box0)
-        return kiln_err_set(err, KILN_EINVAL, "bad resample geometry: %u of %u at %u to %u",
-                            box_size, in_size, box0, out_size);
+    /* Sides below 2^31 keep (2i + 1) * box_size of the nearest rule inside 64 bits. */
+    const uint64_t grid_end = (uint64_t)in_size * (denom ? denom : 1) - shift;
+    if (in_size == 0 || out_size == 0 || box_size == 0 || denom == 0 || shift >= denom ||
+        grid_end >= (1u << 31) || out_size >= (1u << 31) || box0 > grid_end ||
+        box_size > grid_end - box0)
+        return kiln_err_set(err, KILN_EINVAL,
+                            "bad resample geometry: %u at %u of %u pixels (1/%u, shift %u) to %u",
+                            box_size, box0, in_size, denom, shift, out_size);
     if (filter < 0 || filter >= KILN_FILTER_COUNT)
         return kiln_err_set(err, KILN_EINVAL, "unknown filter %d", filter);
-    const double scale = (double)box_size / (double)out_size;
+    /* On the reduced grid the box starts at (box0 + shift) / denom and output pixels are
+     * box_size / (out_size * denom) of its pixels apart; with denom 1 both are the plain
+     * box0 and box_size / out_size, bit for bit. */
+    const double scale = (double)box_size / ((double)out_size * (double)denom);
+    const double start = ((double)box0 + (double)shift) / (double)denom;
     const double fscale = scale > 1.0 ? scale : 1.0;
     const double support = kiln_filter_support(filter) * fscale;
     uint32_t ksize = filter == KILN_FILTER_NEAREST ? 1u : (uint32_t)support * 2u + 3u;
@@ -150,9 +159,11 @@ int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_
         int32_t *c = ax->coef + (size_t)i * ksize;
         memset(c, 0, ksize * sizeof *c);
         if (filter == KILN_FILTER_NEAREST) {
-            /* The input pixel whose span holds the output pixel's centre, in exact integers:
-             * box0 + floor((2i + 1) * box_size / (2 * out_size)). */
-            uint64_t src = box0 + ((2u * (uint64_t)i + 1u) * box_size) / (2u * (uint64_t)out_size);
+            /* The full-size pixel whose span holds the output pixel's centre, in exact integers
+             * (box0 + floor((2i + 1) * box_size / (2 * out_size))), then the input pixel that
+             * covers it. */
+            uint64_t full = box0 + ((2u * (uint64_t)i + 1u) * box_size) / (2u * (uint64_t)out_size);
+            uint64_t src = (full + shift) / denom;
             if (src >= in_size)
                 src = in_size - 1;
             ax->first[i] = (uint32_t)src;
@@ -160,7 +171,7 @@ int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_
             c[0] = 1 << KILN_RESIZE_BITS;
             continue;
         }
-        const double centre = (double)box0 + ((double)i + 0.5) * scale;
+        const double centre = start + ((double)i + 0.5) * scale;
         double lo = centre - support + 0.5, hi = centre + support + 0.5;
         int64_t xmin = lo < 0 ? 0 : (int64_t)lo;
         int64_t xmax = hi < 0 ? 0 : (int64_t)hi;
@@ -343,18 +354,31 @@ int kiln_resize(struct kiln_resizer *r, const struct kiln_image *in, const struc
                 uint32_t out_w, uint32_t out_h, int filter, struct kiln_image *out,
                 struct kiln_err *err)
 {
+    return kiln_resize_grid(r, in, NULL, box, out_w, out_h, filter, out, err);
+}
+
+int kiln_resize_grid(struct kiln_resizer *r, const struct kiln_image *in,
+                     const struct kiln_grid *grid, const struct kiln_box *box, uint32_t out_w,
+                     uint32_t out_h, int filter, struct kiln_image *out, struct kiln_err *err)
+{
+    static const struct kiln_grid same = {1, 0, 0};
+    if (!grid)
+        grid = &same;
     struct kiln_box whole = {0, 0, in->width, in->height};
     if (!box)
         box = &whole;
-    uint32_t key[8] = {in->width, in->height, box->x, box->y, box->w, box->h, (uint32_t)filter, 0};
+    uint32_t key[10] = {in->width, in->height, box->x,         box->y,         box->w,
+                        box->h,    (uint32_t)filter, grid->denom, grid->shift_x, grid->shift_y};
     if (!r->valid || memcmp(key, r->key, sizeof key) != 0 || r->x.out_size != out_w ||
         r->y.out_size != out_h) {
         kiln_resize_axis_free(&r->x);
         kiln_resize_axis_free(&r->y);
         r->valid = false;
-        int rc = kiln_resize_axis_init(&r->x, in->width, box->x, box->w, out_w, filter, err);
+        int rc = kiln_resize_axis_init(&r->x, in->width, grid->denom, grid->shift_x, box->x,
+                                       box->w, out_w, filter, err);
         if (!rc)
-            rc = kiln_resize_axis_init(&r->y, in->height, box->y, box->h, out_h, filter, err);
+            rc = kiln_resize_axis_init(&r->y, in->height, grid->denom, grid->shift_y, box->y,
+                                       box->h, out_h, filter, err);
         if (rc)
             return rc;
         memcpy(r->key, key, sizeof key);
@@ -368,8 +392,9 @@ int kiln_resize(struct kiln_resizer *r, const struct kiln_image *in, const struc
         if (r->y.first[i] + r->y.count[i] > y1)
             y1 = r->y.first[i] + r->y.count[i];
     }
-    const bool need_x = !(out_w == in->width && box->x == 0 && box->w == in->width);
-    const bool need_y = !(out_h == in->height && box->y == 0 && box->h == in->height);
+    const bool same_grid = grid->denom == 1;
+    const bool need_x = !(same_grid && out_w == in->width && box->x == 0 && box->w == in->width);
+    const bool need_y = !(same_grid && out_h == in->height && box->y == 0 && box->h == in->height);
     int rc = kiln_image_reshape(out, out_w, out_h, in->channels, in->depth, err);
     if (rc)
         return rc;

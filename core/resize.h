@@ -31,9 +31,19 @@ int kiln_filter_parse(const char *name); /* -1 when unknown */
 double kiln_filter_kernel(int filter, double x);
 double kiln_filter_support(int filter);
 
-/* A rectangle of the source image, in whole pixels. */
+/* A rectangle of the source image, in whole pixels of the full-size grid (see kiln_grid). */
 struct kiln_box {
     uint32_t x, y, w, h;
+};
+
+/* Where the pixels handed to the resampler lie on the full-size grid that boxes are given in.
+ * A JPEG decoded at 1/denom scale (docs/pixels.md 1a) has pixel t of an axis covering full-size
+ * pixels [t * denom - shift, (t + 1) * denom - shift): shift is 0 unless orientation reversed
+ * that axis, which moves the stored image's partial last block to the front (shift = the part
+ * of it past the image edge). {1, 0, 0} is the identity. See docs/resize.md, "Reduced
+ * sources". */
+struct kiln_grid {
+    uint32_t denom, shift_x, shift_y;
 };
 
 /* Coefficients for one axis: output i reads count[i] inputs from first[i] with weights
@@ -47,11 +57,14 @@ struct kiln_resize_axis {
     int64_t max_pos, max_neg;
 };
 
-/* Builds the coefficient table mapping [box0, box0 + box_size) of an in_size axis onto out_size
- * outputs. Windows may reach outside the box (they are cut at the image edge and renormalised).
- * Returns KILN_OK, KILN_EINVAL or KILN_ENOMEM. */
-int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_t box0,
-                          uint32_t box_size, uint32_t out_size, int filter, struct kiln_err *err);
+/* Builds the coefficient table mapping the full-size interval [box0, box0 + box_size) onto
+ * out_size outputs, reading an axis of in_size pixels that each cover denom full-size pixels
+ * starting at -shift (denom 1, shift 0: the pixels are the full-size ones). The box may be any
+ * part of [0, in_size * denom - shift). Windows may reach outside the box (they are cut at the
+ * image edge and renormalised). Returns KILN_OK, KILN_EINVAL or KILN_ENOMEM. */
+int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_t denom,
+                          uint32_t shift, uint32_t box0, uint32_t box_size, uint32_t out_size,
+                          int filter, struct kiln_err *err);
 void kiln_resize_axis_free(struct kiln_resize_axis *ax);
 
 /* Per-worker resampler: caches the last coefficient tables (consecutive images often share a
@@ -59,7 +72,7 @@ void kiln_resize_axis_free(struct kiln_resize_axis *ax);
 struct kiln_resizer {
     struct kiln_resize_axis x, y;
     bool valid;
-    uint32_t key[8]; /* in_w, in_h, box x,y,w,h, filter, (out size is in the axes) */
+    uint32_t key[10]; /* in_w, in_h, box x,y,w,h, filter, grid (out size is in the axes) */
     int64_t *acc;
     size_t acc_cap;
     struct kiln_image tmp;
@@ -73,6 +86,13 @@ void kiln_resizer_free(struct kiln_resizer *r);
 int kiln_resize(struct kiln_resizer *r, const struct kiln_image *in, const struct kiln_box *box,
                 uint32_t out_w, uint32_t out_h, int filter, struct kiln_image *out,
                 struct kiln_err *err);
+
+/* The same for an image that is a reduced decode of a larger one: box is on the full-size grid
+ * and grid says where in's pixels lie on it (NULL = in is full size), so the result is the
+ * full-size image's resampled as closely as in's pixels allow. */
+int kiln_resize_grid(struct kiln_resizer *r, const struct kiln_image *in,
+                     const struct kiln_grid *grid, const struct kiln_box *box, uint32_t out_w,
+                     uint32_t out_h, int filter, struct kiln_image *out, struct kiln_err *err);
 
 enum kiln_fit { KILN_FIT_STRETCH = 0, KILN_FIT_PAD, KILN_FIT_CROP, KILN_FIT_COUNT };
 const char *kiln_fit_name(int fit);

@@ -475,8 +475,11 @@ static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln
     info.trusted = 1; /* the SHA-256 check above passed */
     if (!rc)
         rc = dec->decode(j->data, j->size, &info, denom, &w->img, e);
-    if (!rc)
-        rc = kiln_prep_record(&w->prep, r, &w->img, info.orientation, w->record, e);
+    if (!rc) {
+        const struct kiln_prep_source src = {info.width, info.height, denom, info.orientation,
+                                             false};
+        rc = kiln_prep_record(&w->prep, r, &w->img, &src, w->record, e);
+    }
     if (rc) {
         kiln_err_prefix(e, "%s", item_name(it, name, sizeof name));
         return rc;

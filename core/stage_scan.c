@@ -403,11 +403,13 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
         return kiln_err_set(&w->run->err, rc, "%s", e.msg);
     it->has_pixels = 1;
     if (recipe) {
-        /* The oriented image with orientation 1 gives the same record as the stored one with
-         * its orientation, and is already at hand. */
+        /* The oriented image gives the same record as the stored one and is already at hand;
+         * src still describes the stored picture, which fixes the fit and the reduced grid. */
         const bool use_oriented = recipe->orient && info.orientation != 1;
-        rc = kiln_prep_record(&w->prep, recipe, use_oriented ? &w->oriented : &w->img,
-                              use_oriented ? 1 : info.orientation, w->record, &e);
+        const struct kiln_prep_source src = {info.width, info.height, denom, info.orientation,
+                                             use_oriented};
+        rc = kiln_prep_record(&w->prep, recipe, use_oriented ? &w->oriented : &w->img, &src,
+                              w->record, &e);
         if (!rc)
             rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
         if (rc)

@@ -150,8 +150,8 @@ static void test_axis_coefficients(void **state)
     for (size_t s = 0; s < sizeof sizes / sizeof sizes[0]; s++)
         for (size_t f = 0; f < NFILTERS; f++) {
             struct kiln_resize_axis ax;
-            assert_int_equal(kiln_resize_axis_init(&ax, sizes[s][0], 0, sizes[s][0], sizes[s][1],
-                                                   all_filters[f], &err),
+            assert_int_equal(kiln_resize_axis_init(&ax, sizes[s][0], 1, 0, 0, sizes[s][0],
+                                                   sizes[s][1], all_filters[f], &err),
                              KILN_OK);
             for (uint32_t i = 0; i < ax.out_size; i++) {
                 int64_t sum = 0;
@@ -163,9 +163,11 @@ static void test_axis_coefficients(void **state)
             kiln_resize_axis_free(&ax);
         }
     struct kiln_resize_axis ax;
-    assert_int_equal(kiln_resize_axis_init(&ax, 10, 5, 6, 3, KILN_FILTER_BOX, &err), KILN_EINVAL);
-    assert_int_equal(kiln_resize_axis_init(&ax, 10, 0, 10, 0, KILN_FILTER_BOX, &err), KILN_EINVAL);
-    assert_int_equal(kiln_resize_axis_init(&ax, 10, 0, 10, 3, 99, &err), KILN_EINVAL);
+    assert_int_equal(kiln_resize_axis_init(&ax, 10, 1, 0, 5, 6, 3, KILN_FILTER_BOX, &err),
+                     KILN_EINVAL);
+    assert_int_equal(kiln_resize_axis_init(&ax, 10, 1, 0, 0, 10, 0, KILN_FILTER_BOX, &err),
+                     KILN_EINVAL);
+    assert_int_equal(kiln_resize_axis_init(&ax, 10, 1, 0, 0, 10, 3, 99, &err), KILN_EINVAL);
 }
 
 /* A constant image stays exactly constant: the weights sum to one (common practice, and the
