@@ -8,13 +8,11 @@
     resize_shape.py make-chosen DEMO_DIR DIR     a folder of lossless files (see make_chosen)
     resize_shape.py records SRC_DIR OUT          every record rebuilt from its source file
     resize_shape.py pad-regions OUT              pad areas of every record = the pad value
-    resize_shape.py dct SRC_DIR DCT_OUT FULL_OUT DCT-domain JPEG reduction: counts and PSNR
 
 Each check exits 1 with a message on the first failure and prints what it checked.
 """
 import csv
 import json
-import math
 import os
 import shutil
 import sys
@@ -331,93 +329,21 @@ def check_pad_regions(out):
     print(f"ok: pad regions of {n} records are exactly {pad.tolist()}")
 
 
-# ---- DCT-domain reduction ----
-
-def expected_denom(w, h, W, H, fit):
-    """docs/pixels.md 1a: the largest d in {1, 2, 4, 8} whose reduced image (sides rounded up),
-    after orientation, still has a fit box at least the resampled size on both axes. w and h
-    are catalog.csv's, already after orientation (docs/formats.md); rounding each side up
-    commutes with swapping them."""
-    best = 1
-    for d in (2, 4, 8):
-        sw, sh = -(-w // d), -(-h // d)
-        box, (iw, ih), _ = fit_geometry(sw, sh, W, H, fit)
-        if box[2] >= iw and box[3] >= ih:
-            best = d
-        else:
-            break
-    return best
-
-
-def check_dct(src, dct_out, full_out):
-    md, rows, td = load(dct_out)
-    mf, rows_f, tf = load(full_out)
-    if not md["recipe"]["dct_scale"] or mf["recipe"]["dct_scale"]:
-        fail("dct: expected a run with and one without DCT scaling")
-    if [r["sha256"] for r in rows] != [r["sha256"] for r in rows_f]:
-        fail("dct: the two runs packed different items")
-    rc = md["recipe"]
-    W, H = (int(v) for v in rc["size"].split("x"))
-    cat = {r["path"]: r for r in csv.DictReader(open(os.path.join(dct_out, "catalog.csv"),
-                                                     newline="", encoding="utf-8"))}
-    maxv = 65535.0 if rc["depth"] == 16 else 255.0
-    psnr = {}  # denominator -> list of per-channel PSNR values
-    items = {}  # denominator -> number of items
-    expect_reduced = 0
-    for r, rf in zip(rows, rows_f):
-        if not r["split"]:
-            continue
-        c = cat[r["path"]]
-        d = expected_denom(int(c["width"]), int(c["height"]), W, H, rc["fit"]) \
-            if c["format"] == "jpeg" else 1
-        a = records(td, r["split"])[int(r["index"])].astype(np.float64)
-        b = records(tf, rf["split"])[int(rf["index"])].astype(np.float64)
-        if d == 1:
-            if not np.array_equal(a, b):
-                fail(f"dct: {r['path']} is not reduced by the rule but its record differs")
-            continue
-        expect_reduced += 1
-        items[d] = items.get(d, 0) + 1
-        axes = (0, 1) if rc["layout"] == "nhwc" else (1, 2)
-        mse = np.mean((a - b) ** 2, axis=axes)
-        for m in mse:
-            p = 10 * math.log10(maxv * maxv / m) if m > 0 else math.inf
-            psnr.setdefault(d, []).append(p)
-    if md["dct_reduced_items"] != expect_reduced or expect_reduced == 0:
-        fail(f"dct: manifest dct_reduced_items {md['dct_reduced_items']}, the rule of "
-             f"docs/pixels.md 1a gives {expect_reduced}")
-    if mf["dct_reduced_items"] != 0:
-        fail(f"dct: --no-dct-scale run reports {mf['dct_reduced_items']} reduced items")
-    allp = [p for v in psnr.values() for p in v]
-    print(f"dct: {expect_reduced} items reduced (manifest: {md['dct_reduced_items']}; "
-          f"--no-dct-scale: {mf['dct_reduced_items']}), {rc['size']} {rc['fit']} {rc['filter']}")
-    for d in sorted(psnr):
-        v = psnr[d]
-        print(f"  1/{d}: {items[d]} items, PSNR per channel mean {np.mean(v):.2f} dB, "
-              f"worst {min(v):.2f} dB, best {max(v):.2f} dB")
-    print(f"  all: PSNR per channel mean {np.mean(allp):.2f} dB, worst {min(allp):.2f} dB")
-    # A conservative floor, several dB under the measured values (docs/resize.md, "DCT-domain
-    # reduction: quality": worst 39.5 dB at 128x96). For scale, measured on the same demo
-    # records (numpy, 2026-12-02): the full-size records against themselves shifted by half an
-    # output pixel give a worst item of 30.7 dB, by one pixel 24.7 dB, and nearest instead of
-    # the antialiased bilinear 25.4 dB, so a misaligned or unfiltered reduction falls below it.
-    floor = 35.0
-    if not all(math.isfinite(p) for p in allp):
-        fail("dct: a reduced item gives exactly the full-size record (reduction not applied?)")
-    if min(allp) < floor:
-        fail(f"dct: worst PSNR {min(allp):.2f} dB is below {floor} dB")
-    print(f"ok: dct: every reduced record within {min(allp):.2f} dB PSNR (floor {floor} dB)")
+def dispatch(cmds, argv, usage):
+    """Runs argv[1] from cmds ({name: (function, number of arguments)}); 2 and the usage on a
+    wrong command line."""
+    if len(argv) < 2 or argv[1] not in cmds or len(argv) != cmds[argv[1]][1] + 2:
+        print(usage, file=sys.stderr)
+        return 2
+    cmds[argv[1]][0](*argv[2:])
+    return 0
 
 
 def main(argv):
     cmds = {"layout": (check_layout, 2), "dtype": (check_dtype, 2), "alpha": (check_alpha, 2),
             "make-chosen": (make_chosen, 2), "records": (check_records, 2),
-            "pad-regions": (check_pad_regions, 1), "dct": (check_dct, 3)}
-    if len(argv) < 2 or argv[1] not in cmds or len(argv) != cmds[argv[1]][1] + 2:
-        print(__doc__, file=sys.stderr)
-        return 2
-    cmds[argv[1]][0](*argv[2:])
-    return 0
+            "pad-regions": (check_pad_regions, 1)}
+    return dispatch(cmds, argv, __doc__)
 
 
 if __name__ == "__main__":

@@ -427,6 +427,98 @@ static void test_nearest(void **state)
     kiln_resizer_free(&r);
 }
 
+/* A reduced image on the full-size grid (kiln_grid, docs/resize.md "Reduced sources"): when
+ * the full-size image is the reduced one with every pixel repeated over the d x d full-size
+ * pixels it covers (the first ones cut by the shift), nearest neighbour reads the same value
+ * either way, for any box, exactly. */
+static void test_nearest_on_grid(void **state)
+{
+    (void)state;
+    struct kiln_resizer r;
+    kiln_resizer_init(&r);
+    struct kiln_image red = {0}, full = {0}, a = {0}, b = {0};
+    struct kiln_err err = {0};
+    uint32_t seed = 11;
+    const uint32_t rw = 9, rh = 7;
+    assert_int_equal(kiln_image_reshape(&red, rw, rh, 3, 8, &err), KILN_OK);
+    for (uint32_t y = 0; y < rh; y++)
+        for (uint32_t x = 0; x < rw; x++)
+            for (uint32_t c = 0; c < 3; c++)
+                px_set(&red, x, y, c, lcg(&seed) % 256);
+    static const uint32_t outs[][2] = {{5, 4}, {13, 11}, {40, 3}, {1, 1}};
+    size_t checked = 0;
+    for (uint32_t d = 1; d <= 8; d *= 2)
+        for (uint32_t k = 0; k < 3; k++) {
+            const struct kiln_grid grid = {d, (d - 1) * (k & 1), d / 2 * (k >> 1)};
+            const uint32_t fw = rw * d - grid.shift_x, fh = rh * d - grid.shift_y;
+            assert_int_equal(kiln_image_reshape(&full, fw, fh, 3, 8, &err), KILN_OK);
+            for (uint32_t y = 0; y < fh; y++)
+                for (uint32_t x = 0; x < fw; x++)
+                    for (uint32_t c = 0; c < 3; c++)
+                        px_set(&full, x, y, c,
+                               px_get(&red, (x + grid.shift_x) / d, (y + grid.shift_y) / d, c));
+            const struct kiln_box boxes[] = {{0, 0, fw, fh}, {3, 2, fw - 5, fh - 4}, {1, 0, 2, fh}};
+            for (size_t bi = 0; bi < 3; bi++)
+                for (size_t o = 0; o < 4; o++) {
+                    assert_int_equal(kiln_resize_grid(&r, &red, &grid, &boxes[bi], outs[o][0],
+                                                      outs[o][1], KILN_FILTER_NEAREST, &a, &err),
+                                     KILN_OK);
+                    assert_int_equal(kiln_resize(&r, &full, &boxes[bi], outs[o][0], outs[o][1],
+                                                 KILN_FILTER_NEAREST, &b, &err),
+                                     KILN_OK);
+                    assert_memory_equal(a.data, b.data, a.stride * a.height);
+                    checked++;
+                }
+        }
+    assert_int_equal(checked, 4 * 3 * 3 * 4);
+    kiln_image_free(&red);
+    kiln_image_free(&full);
+    kiln_image_free(&a);
+    kiln_image_free(&b);
+    kiln_resizer_free(&r);
+}
+
+/* The grid's own limits: the box must lie on the reduced pixels' span, [-shift, in * d -
+ * shift) cut to [0, ...), and the shift must be less than one reduced pixel; a unit grid gives
+ * the plain resampler's bytes. */
+static void test_grid_limits(void **state)
+{
+    (void)state;
+    struct kiln_resize_axis ax;
+    struct kiln_err err = {0};
+    /* 10 pixels of 1/4 shifted by 3 span full-size [0, 37). */
+    assert_int_equal(kiln_resize_axis_init(&ax, 10, 4, 3, 0, 37, 5, KILN_FILTER_BILINEAR, &err),
+                     KILN_OK);
+    kiln_resize_axis_free(&ax);
+    assert_int_equal(kiln_resize_axis_init(&ax, 10, 4, 3, 1, 37, 5, KILN_FILTER_BILINEAR, &err),
+                     KILN_EINVAL);
+    assert_int_equal(kiln_resize_axis_init(&ax, 10, 4, 4, 0, 36, 5, KILN_FILTER_BILINEAR, &err),
+                     KILN_EINVAL);
+    assert_int_equal(kiln_resize_axis_init(&ax, 10, 0, 0, 0, 10, 5, KILN_FILTER_BILINEAR, &err),
+                     KILN_EINVAL);
+    struct kiln_resizer r;
+    kiln_resizer_init(&r);
+    struct kiln_image in = {0}, a = {0}, b = {0};
+    uint32_t seed = 5;
+    assert_int_equal(kiln_image_reshape(&in, 31, 17, 1, 16, &err), KILN_OK);
+    for (uint32_t y = 0; y < 17; y++)
+        for (uint32_t x = 0; x < 31; x++)
+            px_set(&in, x, y, 0, lcg(&seed) % 65536);
+    const struct kiln_grid unit = {1, 0, 0};
+    const struct kiln_box box = {2, 1, 27, 13};
+    for (size_t f = 0; f < NFILTERS; f++) {
+        assert_int_equal(kiln_resize_grid(&r, &in, &unit, &box, 11, 5, all_filters[f], &a, &err),
+                         KILN_OK);
+        kiln_resizer_free(&r); /* no cached tables between the two */
+        assert_int_equal(kiln_resize(&r, &in, &box, 11, 5, all_filters[f], &b, &err), KILN_OK);
+        assert_memory_equal(a.data, b.data, a.stride * a.height);
+    }
+    kiln_image_free(&in);
+    kiln_image_free(&a);
+    kiln_image_free(&b);
+    kiln_resizer_free(&r);
+}
+
 /* ---- fit geometry, every value by hand ---- */
 
 static void expect_fit(uint32_t sw, uint32_t sh, uint32_t dw, uint32_t dh, int fit,
@@ -495,6 +587,8 @@ int main(void)
         cmocka_unit_test(test_ramp_upscale),
         cmocka_unit_test(test_same_size_box_is_a_crop),
         cmocka_unit_test(test_nearest),
+        cmocka_unit_test(test_nearest_on_grid),
+        cmocka_unit_test(test_grid_limits),
         cmocka_unit_test(test_fit_geometry),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
