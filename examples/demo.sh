@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Installs what kiln needs, builds it, installs the kten Python package (python/, for
+# Installs what kiln needs, builds it, installs the kten Python package (examples/python/, for
 # training), generates the bundled demo data set (glaze test tiles photographed on a bench
 # camera) and packs it: `bash examples/demo.sh`. Outputs go to demo-out/ in the source tree.
 set -euo pipefail
@@ -10,7 +10,7 @@ kiln_deps_install "$KILN_BUILD_PACKAGES $KILN_PYTHON_PACKAGES"
 cmake -S "$here" -B "$here/build" -DKILN_TESTS=OFF >/dev/null
 cmake --build "$here/build" -j"$(nproc)" --target kiln kiln-demo-data >/dev/null
 # For Debian's python3, where the Debian packages went: for every user as root, else ~/.local.
-bash "$here/python/install.sh"
+bash "$here/examples/python/install.sh"
 rm -rf "$here/demo-data" "$here/demo-out"
 "$here/build/kiln-demo-data" "$here/demo-data"
 echo

@@ -7,7 +7,7 @@
 
 `images` is [N, H, W, C] for layout nhwc and [N, C, H, W] for nchw (see t["metadata"]["layout"]);
 np.transpose(x, (0, 3, 1, 2)) turns the first into the second. Nothing is read into memory
-until it is used. For training, the kten package (python/, docs/training.md) does the rest:
+until it is used. For training, the kten package (examples/python/, docs/training.md) does the rest:
 checks, statistics, normalisation and a PyTorch Dataset.
 """
 import hashlib

@@ -4,7 +4,7 @@ accuracy: the shortest honest training loop on kiln's output.
 
     python3 examples/train_torch.py packed/ [--epochs 15] [--seed 0] [--threads N]
 
-Needs PyTorch and the kten package (bash python/install.sh; the README's set-up runs it).
+Needs PyTorch and the kten package (bash examples/python/install.sh; the README's set-up runs it).
 Images come as float32 [C, H, W] normalised with the training split's statistics, labels as
 int64, whatever dtype and layout the folder was packed with (docs/training.md).
 """

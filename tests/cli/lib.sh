@@ -63,16 +63,16 @@ need_torch() {
         skip "$PYTHON without PyTorch (Debian: python3-torch)"
 }
 
-# kten_install: installs the kten package the way the README's set-up does (python/install.sh,
+# kten_install: installs the kten package the way the README's set-up does (examples/python/install.sh,
 # here --user into $work/pyuser through PYTHONUSERBASE), so tests import it as users do:
 # installed, never from the source tree.
 kten_install() {
     "$PYTHON" -c 'import setuptools, wheel, pip' 2>/dev/null ||
         skip "$PYTHON cannot install packages (Debian: python3-pip python3-setuptools python3-wheel)"
     export PYTHONUSERBASE="$work/pyuser"
-    PYTHON="$PYTHON" bash "$KILN_SRC/python/install.sh" --user >"$work/install.log" 2>&1 || {
+    PYTHON="$PYTHON" bash "$KILN_SRC/examples/python/install.sh" --user >"$work/install.log" 2>&1 || {
         cat "$work/install.log" >&2
-        fail "python/install.sh --user"
+        fail "examples/python/install.sh --user"
     }
     local got
     got=$(cd / && "$PYTHON" -c 'import kten; print(kten.__file__)')

@@ -1,4 +1,4 @@
-# kten.Dataset (python/kten/_torch.py) in PyTorch DataLoaders with 2 worker processes (fork and
+# kten.Dataset (examples/python/kten/_torch.py) in PyTorch DataLoaders with 2 worker processes (fork and
 # spawn): the same items as a direct numpy read, no per-worker copy of the array, float32 CHW
 # and int64 labels for u8 NHWC, 16-bit NCHW and f32 outputs (tests/ref/kten_dataset.py).
 . "$(dirname "$0")/lib.sh"

@@ -1,4 +1,4 @@
-# The kten package's reader (python/kten) against docs/format.md and the decoded source pixels:
+# The kten package's reader (examples/python/kten) against docs/format.md and the decoded source pixels:
 # every dtype (u8, u16, f32) and layout (nhwc, nchw) of tiles of real published pictures
 # (scikit-image's bundled data; sources and licences in tests/ref/kten_reader.py), 0-record
 # splits, statistics null or absent, damaged and mismatched files.

@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Checks of kten.Dataset (python/kten/_torch.py) in PyTorch DataLoaders with 2 workers:
+"""Checks of kten.Dataset (examples/python/kten/_torch.py) in PyTorch DataLoaders with 2 workers:
 
     kten_dataset.py WORK OUT...     OUT: kiln output folders (any dtype and layout)
 

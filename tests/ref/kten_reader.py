@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Checks of the kten package's reader (python/kten) against docs/format.md and against the
+"""Checks of the kten package's reader (examples/python/kten) against docs/format.md and against the
 source images, decoded by PIL (python3-pil) and computed with numpy (python3-numpy):
 
     kten_reader.py tiles DIR8 DIR16          write the lossless test folders (below)

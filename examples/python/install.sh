@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # Installs the kten Python package (the .kten reader and PyTorch Dataset) for Debian's
-# /usr/bin/python3, offline: `bash python/install.sh [--user]`. As root it installs for every
+# /usr/bin/python3, offline: `bash examples/python/install.sh [--user]`. As root it installs for every
 # user (/usr/local/lib/python3.*/dist-packages), like the Debian packages kiln needs; otherwise,
 # or with --user, into ~/.local. Needs python3-pip, python3-setuptools, python3-wheel and
 # python3-numpy (tests/deps.sh: KILN_PYTHON_PACKAGES). PYTHON overrides the interpreter.
@@ -9,7 +9,7 @@
 # unless told --break-system-packages. That is safe here: kten is pure Python, pip is run with
 # --no-deps and --no-index, so it adds kten's own files under /usr/local or ~/.local and never
 # removes or replaces a Debian package. (In a virtual environment none of this applies:
-# `pip install --no-build-isolation ./python` there.)
+# `pip install --no-build-isolation ./examples/python` there.)
 set -euo pipefail
 here=$(cd "$(dirname "$0")" && pwd)
 py=${PYTHON:-/usr/bin/python3}
