@@ -101,21 +101,18 @@ int cmd_build(int argc, char **argv)
         return cli_usage_error("build", "%s", err.msg);
     so.jobs = po.jobs = jobs;
     int nsrc = argc - optind;
-    char **sources = calloc((size_t)nsrc, sizeof *sources);
-    for (int i = 0; sources && i < nsrc; i++) {
-        sources[i] = strdup(argv[optind + i]);
-        size_t len = sources[i] ? strlen(sources[i]) : 0;
-        while (len > 1 && sources[i][len - 1] == '/')
-            sources[i][--len] = '\0';
+    char **sources = cli_sources_new(nsrc, argv + optind);
+    if (!sources) {
+        cli_error("out of memory");
+        free((void *)po.path_key);
+        return KILN_EXIT_FAILURE;
     }
     /* One decode per image: scan prepares the records into a pool that pack lays out. */
     struct kiln_record_pool pool;
     int prc = kiln_record_pool_open(&pool, po.outdir, &po.recipe, &err);
     if (prc) {
         cli_error("%s", err.msg);
-        for (int i = 0; sources && i < nsrc; i++)
-            free(sources[i]);
-        free(sources);
+        cli_sources_free(sources, nsrc);
         free((void *)po.path_key);
         return cli_exit_for(prc);
     }
@@ -165,9 +162,7 @@ int cmd_build(int argc, char **argv)
     json_decref(rec);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
-    for (int i = 0; sources && i < nsrc; i++)
-        free(sources[i]);
-    free(sources);
+    cli_sources_free(sources, nsrc);
     free((void *)po.path_key);
     return exit_code;
 }

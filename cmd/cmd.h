@@ -73,6 +73,11 @@ int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg)
 int cli_split_option(struct kiln_split_params *p, const char *name, const char *arg);
 int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg);
 
+/* Copies the source arguments with trailing slashes removed, so "data/" and "data" name the
+ * same source; NULL when memory runs out (nothing is left allocated). */
+char **cli_sources_new(int n, char **argv);
+void cli_sources_free(char **sources, int n);
+
 /* Reads a --path-key file (at most 1 MiB, not empty); prints the error and returns -1. */
 int cli_read_path_key(const char *file, uint8_t **key, size_t *len);
 

@@ -395,6 +395,29 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
     }
 }
 
+char **cli_sources_new(int n, char **argv)
+{
+    char **s = calloc((size_t)n + 1, sizeof *s);
+    for (int i = 0; s && i < n; i++) {
+        s[i] = strdup(argv[i]);
+        if (!s[i]) {
+            cli_sources_free(s, i);
+            return NULL;
+        }
+        size_t len = strlen(s[i]);
+        while (len > 1 && s[i][len - 1] == '/')
+            s[i][--len] = '\0';
+    }
+    return s;
+}
+
+void cli_sources_free(char **sources, int n)
+{
+    for (int i = 0; sources && i < n; i++)
+        free(sources[i]);
+    free(sources);
+}
+
 int cli_read_path_key(const char *file, uint8_t **key, size_t *len)
 {
     struct kiln_err e;

@@ -36,21 +36,6 @@ static const struct option longopts[] = {
     {NULL, 0, NULL, 0},
 };
 
-/* Strips trailing slashes so "data/" and "data" name the same source. */
-static char **normalised_sources(int n, char **argv)
-{
-    char **s = calloc((size_t)n + 1, sizeof *s);
-    for (int i = 0; s && i < n; i++) {
-        s[i] = strdup(argv[i]);
-        if (!s[i])
-            return NULL;
-        size_t len = strlen(s[i]);
-        while (len > 1 && s[i][len - 1] == '/')
-            s[i][--len] = '\0';
-    }
-    return s;
-}
-
 int cmd_scan(int argc, char **argv)
 {
     struct kiln_scan_opts o;
@@ -81,7 +66,7 @@ int cmd_scan(int argc, char **argv)
     if (optind >= argc)
         return cli_usage_error("scan", "name at least one source folder or archive");
     int nsrc = argc - optind;
-    char **sources = normalised_sources(nsrc, argv + optind);
+    char **sources = cli_sources_new(nsrc, argv + optind);
     if (!sources) {
         cli_error("out of memory");
         return KILN_EXIT_FAILURE;
@@ -137,8 +122,6 @@ int cmd_scan(int argc, char **argv)
         }
     }
     kiln_catalog_free(&cat);
-    for (int i = 0; i < nsrc; i++)
-        free(sources[i]);
-    free(sources);
+    cli_sources_free(sources, nsrc);
     return exit_code;
 }

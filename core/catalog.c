@@ -56,6 +56,28 @@ int kiln_split_parse(const char *name)
     return -1;
 }
 
+void kiln_name_normalise(const char *name, char *out, size_t len)
+{
+    size_t n = 0;
+    const char *p = name;
+    while (*p) {
+        size_t part = strcspn(p, "/");
+        const bool skip = part == 0 || (part == 1 && p[0] == '.');
+        if (!skip) {
+            if (n && n < len - 1)
+                out[n++] = '/';
+            size_t room = n < len - 1 ? len - 1 - n : 0;
+            size_t k = part < room ? part : room;
+            memcpy(out + n, p, k);
+            n += k;
+        }
+        p += part;
+        if (*p == '/')
+            p++;
+    }
+    out[n] = '\0';
+}
+
 void kiln_catalog_init(struct kiln_catalog *cat)
 {
     memset(cat, 0, sizeof *cat);

@@ -99,6 +99,12 @@ int kiln_catalog_index_classes(struct kiln_catalog *cat, struct kiln_err *err);
 /* Counts items with each status into counts[KILN_ST_COUNT]. */
 void kiln_catalog_count_status(const struct kiln_catalog *cat, size_t counts[KILN_ST_COUNT]);
 
+/* The form of a path or member name that the label and group rules see (docs/cli.md,
+ * "Relative name"): components split at '/', empty and "." components dropped, so
+ * "./class//x.png" and "class/x.png" give "class/x.png". ".." is kept as it is. The result
+ * is written to out (truncated to len, which must be at least 1). */
+void kiln_name_normalise(const char *name, char *out, size_t len);
+
 /* Byte order comparison of two items' locations (source, path, member). */
 int kiln_item_location_cmp(const struct kiln_item *a, const struct kiln_item *b);
 

@@ -102,6 +102,7 @@ static int label_table_load(struct label_table *t, const char *path, struct kiln
                             "%s: the first row must name the columns path,label[,group]", path);
     }
     size_t cap = 0;
+    char norm[4096]; /* the rules' form of the path column, so "./a/x.png" matches "a/x.png" */
     while ((got = kiln_csv_next(&r, err)) == 1) {
         if (r.nfields == 1 && !r.fields[0][0])
             continue;
@@ -114,7 +115,8 @@ static int label_table_load(struct label_table *t, const char *path, struct kiln
             break;
         }
         struct label_row *lr = &t->rows[t->n];
-        lr->path = strdup(r.fields[cpath]);
+        kiln_name_normalise(r.fields[cpath], norm, sizeof norm);
+        lr->path = strdup(norm);
         lr->label = strdup(r.fields[clabel]);
         lr->group = strdup(cgroup >= 0 && (size_t)cgroup < r.nfields ? r.fields[cgroup] : "");
         lr->used = 0;
@@ -131,7 +133,8 @@ static int label_table_load(struct label_table *t, const char *path, struct kiln
         label_table_free(t);
         return rc;
     }
-    qsort(t->rows, t->n, sizeof *t->rows, cmp_label_row);
+    if (t->n > 1) /* a header-only file leaves rows NULL, which qsort must not get */
+        qsort(t->rows, t->n, sizeof *t->rows, cmp_label_row);
     for (size_t i = 1; i < t->n; i++)
         if (strcmp(t->rows[i - 1].path, t->rows[i].path) == 0) {
             rc = kiln_err_set(err, KILN_EINVAL, "%s: path '%s' is listed twice", path,
@@ -307,12 +310,20 @@ static int status_for_code(int code)
 
 struct worker {
     struct scan_run *run;
+    struct kiln_err err; /* this worker's failure of the run; copied to run->err under mu */
     struct kiln_prep prep; /* build: the record is prepared from the same decode */
     uint8_t *record;
     char notes[96];
     struct kiln_image img, oriented, scratch[2];
     struct kiln_resizer rs;
 };
+
+/* A failure of the run itself (memory, the record pool), named after the file at hand. */
+static int run_failure(struct worker *w, const struct job *j, int code, const char *msg)
+{
+    return kiln_err_set(&w->err, code, "%s/%s%s%s: %s", j->root, j->path,
+                        j->member[0] ? ":" : "", j->member, msg);
+}
 
 /* Decodes once and fills the header, pixel digest and difference hash; on failure sets the
  * item's status and reason. Returns non-zero only for failures of the run (memory). */
@@ -343,7 +354,7 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
     struct kiln_image_info info;
     int rc = dec->read_info(j->data, j->size, &o->limits, &info, &e);
     if (rc == KILN_ENOMEM)
-        return kiln_err_set(&w->run->err, rc, "%s", e.msg);
+        return run_failure(w, j, rc, e.msg);
     if (rc) {
         it->status = (uint8_t)status_for_code(rc);
         snprintf(reason, rlen, "%s", e.msg);
@@ -382,8 +393,7 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
     if (!rc)
         rc = dec->decode(j->data, j->size, &info, denom, &w->img, &e);
     if (rc == KILN_ENOMEM || rc == KILN_EINTERNAL)
-        return kiln_err_set(&w->run->err, rc, "%s/%s%s%s: %s", j->root, j->path,
-                            j->member[0] ? ":" : "", j->member, e.msg);
+        return run_failure(w, j, rc, e.msg);
     if (rc) {
         it->status = (uint8_t)status_for_code(rc);
         snprintf(reason, rlen, "%s", e.msg);
@@ -393,14 +403,14 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
     if (info.orientation != 1) {
         rc = kiln_orient(&w->img, info.orientation, &w->oriented, &e);
         if (rc)
-            return kiln_err_set(&w->run->err, rc, "%s", e.msg);
+            return run_failure(w, j, rc, e.msg);
         shown = &w->oriented;
     }
     rc = kiln_pixel_digest(shown, it->pixel_sha256, &e);
     if (!rc)
         rc = kiln_dhash(shown, w->scratch, &w->rs, &it->phash, &e);
     if (rc)
-        return kiln_err_set(&w->run->err, rc, "%s", e.msg);
+        return run_failure(w, j, rc, e.msg);
     it->has_pixels = 1;
     if (recipe) {
         /* The oriented image gives the same record as the stored one and is already at hand;
@@ -413,7 +423,7 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
         if (!rc)
             rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
         if (rc)
-            return kiln_err_set(&w->run->err, rc, "%s/%s: %s", j->root, j->path, e.msg);
+            return run_failure(w, j, rc, e.msg);
     }
     return KILN_OK;
 }
@@ -428,14 +438,15 @@ static void first_component(const char *s, char *buf, size_t len)
     buf[n] = '\0';
 }
 
-/* Folder rule: the first folder level under the source, or under the archive root when the
- * archive is the source or sits at the top level of the source. */
-static void folder_label(const struct job *j, char *buf, size_t len)
+/* Folder rule on the normalised path and member: the first folder level under the source, or
+ * under the archive root when the archive is the source or sits at the top level of the
+ * source. */
+static void folder_label(const char *path, const char *member, char *buf, size_t len)
 {
-    if (j->member[0] && !strchr(j->path, '/'))
-        first_component(j->member, buf, len);
+    if (member[0] && !strchr(path, '/'))
+        first_component(member, buf, len);
     else
-        first_component(j->path, buf, len);
+        first_component(path, buf, len);
 }
 
 static int process(struct worker *w, struct job *j)
@@ -459,7 +470,7 @@ static int process(struct worker *w, struct job *j)
     if (j->data) {
         rc = kiln_sha256_buf(j->data, j->size, it.sha256, &e);
         if (rc)
-            return kiln_err_set(&run->err, rc, "%s", e.msg);
+            return run_failure(w, j, rc, e.msg);
         it.has_sha = 1;
     }
     if (it.status == KILN_ST_OK) {
@@ -472,14 +483,20 @@ static int process(struct worker *w, struct job *j)
                 return rc;
         }
     }
-    char rel[4096], label[1024] = "", group[1024] = "";
-    kiln_item_relname(j->path, j->member, rel, sizeof rel);
+    /* The rules see normalised names ("./class/x.png" in a tarball made with `tar -C dir .`
+     * is "class/x.png"); the row keeps the raw ones, which is how pack finds the member. */
+    char path[4096], member[4096], rel[4096], label[1024] = "", group[1024] = "";
+    kiln_name_normalise(j->path, path, sizeof path);
+    kiln_name_normalise(j->member, member, sizeof member);
+    kiln_item_relname(path, member, rel, sizeof rel);
     struct label_row *lr = NULL;
     if (o->labels == KILN_LABELS_FOLDER) {
-        folder_label(j, label, sizeof label);
+        folder_label(path, member, label, sizeof label);
     } else if (o->labels == KILN_LABELS_CSV) {
         struct label_row key = {.path = rel};
-        lr = bsearch(&key, run->labels.rows, run->labels.n, sizeof key, cmp_label_row);
+        lr = run->labels.n ? bsearch(&key, run->labels.rows, run->labels.n, sizeof key,
+                                     cmp_label_row)
+                           : NULL;
         if (lr) {
             snprintf(label, sizeof label, "%s", lr->label);
             snprintf(group, sizeof group, "%s", lr->group);
@@ -515,7 +532,7 @@ static int process(struct worker *w, struct job *j)
         else
             run->rep->group_unmatched++;
     }
-    rc = kiln_catalog_add(run->cat, &it, &run->err);
+    rc = kiln_catalog_add(run->cat, &it, &w->err);
     run->rep->bytes += j->size;
     run->prog.items++;
     run->prog.bytes += j->size;
@@ -540,7 +557,10 @@ static void *worker_main(void *arg)
         free(j->data);
         free(j);
         if (rc) {
+            /* The first failure is the one reported; run->err is only touched under mu. */
             pthread_mutex_lock(&run->mu);
+            if (!run->failed)
+                run->err = w->err;
             run->failed = true;
             pthread_mutex_unlock(&run->mu);
             kiln_queue_close(&run->q); /* stops the reader; the rest drains unprocessed */

@@ -14,7 +14,23 @@ int kiln_csv_open(struct kiln_csv_reader *r, const char *path, struct kiln_err *
     r->f = fopen(path, "rb");
     if (!r->f)
         return kiln_err_sys(err, KILN_EIO, errno, "cannot open %s", path);
+    /* Read ahead rather than seek back, so pipes work too. Kept in reverse order. */
+    static const int bom[3] = {0xEF, 0xBB, 0xBF};
+    int head[3];
+    size_t n = 0;
+    while (n < 3 && (head[n] = getc(r->f)) == bom[n])
+        n++;
+    if (n < 3) {
+        size_t got = n + (head[n] != EOF);
+        for (size_t i = got; i-- > 0;)
+            r->pending[r->npending++] = head[i];
+    }
     return KILN_OK;
+}
+
+static int next_byte(struct kiln_csv_reader *r)
+{
+    return r->npending ? r->pending[--r->npending] : getc(r->f);
 }
 
 void kiln_csv_close(struct kiln_csv_reader *r)
@@ -47,7 +63,7 @@ int kiln_csv_next(struct kiln_csv_reader *r, struct kiln_err *err)
 {
     r->len = 0;
     r->nfields = 0;
-    int c = getc(r->f);
+    int c = next_byte(r);
     if (c == EOF) {
         if (ferror(r->f))
             return -kiln_err_sys(err, KILN_EIO, errno, "cannot read %s", r->name);
@@ -58,7 +74,7 @@ int kiln_csv_next(struct kiln_csv_reader *r, struct kiln_err *err)
     if (start_field(r))
         return -kiln_err_set(err, KILN_ENOMEM, "row too large in %s", r->name);
     int quoted = 0, after_quote = 0;
-    for (;; c = getc(r->f)) {
+    for (;; c = next_byte(r)) {
         if (c == EOF) {
             if (ferror(r->f))
                 return -kiln_err_sys(err, KILN_EIO, errno, "cannot read %s", r->name);
@@ -69,7 +85,7 @@ int kiln_csv_next(struct kiln_csv_reader *r, struct kiln_err *err)
         }
         if (quoted) {
             if (c == '"') {
-                int d = getc(r->f);
+                int d = next_byte(r);
                 if (d == '"') {
                     if (put(r, '"'))
                         return -kiln_err_set(err, KILN_ENOMEM, "row too large in %s", r->name);
@@ -95,9 +111,9 @@ int kiln_csv_next(struct kiln_csv_reader *r, struct kiln_err *err)
             continue;
         }
         if (c == '\r') {
-            int d = getc(r->f);
+            int d = next_byte(r);
             if (d != '\n' && d != EOF)
-                ungetc(d, r->f);
+                r->pending[r->npending++] = d;
             break;
         }
         if (c == '\n')

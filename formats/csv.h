@@ -18,9 +18,12 @@ struct kiln_csv_reader {
     size_t fields_cap;
     size_t line;   /* 1-based line where the current row starts */
     size_t lines_read; /* physical lines consumed so far (rows may span lines) */
+    int pending[3];    /* bytes read ahead (a byte-order mark check, a CR's successor) */
+    size_t npending;
 };
 
-/* Opens path for reading. */
+/* Opens path for reading. A UTF-8 byte-order mark at the start is skipped (spreadsheet
+ * programs write one). */
 int kiln_csv_open(struct kiln_csv_reader *r, const char *path, struct kiln_err *err);
 /* Reads the next row: returns 1 with r->fields/r->nfields set, 0 at end of file, or a negative
  * value with err set (KILN_EINVAL for malformed quoting, KILN_EIO for read errors). */

@@ -1,8 +1,9 @@
 /* Archive walker on libarchive: zip, tar (plain, gzip, bzip2, xz, zstd, ...), 7z, cpio and
  * whatever else libarchive reads, streamed member by member and never extracted to disk.
- * Member names are reported byte-exact and never used to open anything. */
+ * Member names are reported as the archive stores them and never used to open anything. */
 #include <archive.h>
 #include <archive_entry.h>
+#include <locale.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -63,6 +64,23 @@ static const char *member_skip_kind(const char *name)
         p += len;
     }
     return NULL;
+}
+
+/* libarchive converts names the archive declares as Unicode (zip's UTF-8 flag, pax path
+ * records, 7z) into the calling thread's character set, and in kiln's "C" locale every
+ * non-ASCII name fails to convert and comes back NULL. Reading under a UTF-8 LC_CTYPE makes
+ * that conversion the identity (plus libarchive's composition to NFC) whatever the user's
+ * locale, while names stored as plain bytes (ustar and GNU tar, zip without the flag) are
+ * still copied unchanged. The locale is set for this thread only and restored afterwards. */
+static locale_t utf8_locale_new(void)
+{
+    static const char *const names[] = {"C.UTF-8", "C.utf8", "en_US.UTF-8"};
+    for (size_t i = 0; i < sizeof names / sizeof names[0]; i++) {
+        locale_t l = newlocale(LC_CTYPE_MASK, names[i], (locale_t)0);
+        if (l != (locale_t)0)
+            return l;
+    }
+    return (locale_t)0; /* no UTF-8 locale installed: declared-Unicode names get a status */
 }
 
 static int emit(kiln_entry_fn fn, void *ctx, const char *root, const char *path,
@@ -137,9 +155,27 @@ static int read_member(struct archive *a, struct archive_entry *ae, uint64_t max
     return 0;
 }
 
+static int walk_members(const char *fs_path, const char *root, const char *path,
+                        const struct kiln_walk_opts *opts, kiln_want_fn want, kiln_entry_fn fn,
+                        void *ctx, struct kiln_walk_counts *counts, struct kiln_err *err);
+
 int kiln_archive_walk(const char *fs_path, const char *root, const char *path,
                       const struct kiln_walk_opts *opts, kiln_want_fn want, kiln_entry_fn fn,
                       void *ctx, struct kiln_walk_counts *counts, struct kiln_err *err)
+{
+    locale_t utf8 = utf8_locale_new();
+    locale_t prev = utf8 != (locale_t)0 ? uselocale(utf8) : (locale_t)0;
+    int rc = walk_members(fs_path, root, path, opts, want, fn, ctx, counts, err);
+    if (utf8 != (locale_t)0) {
+        uselocale(prev);
+        freelocale(utf8);
+    }
+    return rc;
+}
+
+static int walk_members(const char *fs_path, const char *root, const char *path,
+                        const struct kiln_walk_opts *opts, kiln_want_fn want, kiln_entry_fn fn,
+                        void *ctx, struct kiln_walk_counts *counts, struct kiln_err *err)
 {
     struct archive *a = archive_read_new();
     if (!a)
@@ -177,13 +213,18 @@ int kiln_archive_walk(const char *fs_path, const char *root, const char *path,
         if (r == ARCHIVE_RETRY)
             continue;
         members++;
-        const char *name = archive_entry_pathname(ae);
-        if (!name)
-            name = "";
         mode_t type = archive_entry_filetype(ae);
         if (type == AE_IFDIR)
             continue;
-        const char *skip = member_skip_kind(name);
+        const char *name = archive_entry_pathname(ae);
+        /* NULL when a name declared as UTF-8 (or UTF-16) is not valid in it. The member is
+         * still a row, under a placeholder that names its position, so nothing is dropped. */
+        char unnamed[64];
+        if (!name) {
+            snprintf(unnamed, sizeof unnamed, "<member %zu: name unreadable>", members);
+            name = unnamed;
+        }
+        const char *skip = name == unnamed ? NULL : member_skip_kind(name);
         if (skip) {
             if (counts) {
                 if (skip[0] == 'h')
@@ -210,11 +251,17 @@ int kiln_archive_walk(const char *fs_path, const char *root, const char *path,
             struct kiln_source_entry e = {.root = root, .path = path, .member = name,
                                           .status = KILN_ST_OK};
             if (read_member(a, ae, opts->max_file_bytes, &e.data, &e.size, &e.status, e.reason,
-                            sizeof e.reason) == 0 &&
-                kiln_archive_sniff(e.data, e.size)) {
+                            sizeof e.reason) == 0) {
                 /* The bytes stay with the entry so the row still gets a size and SHA-256. */
-                e.status = KILN_ST_NESTED_ARCHIVE;
-                snprintf(e.reason, sizeof e.reason, "archive inside an archive is not opened");
+                if (name == unnamed) {
+                    e.status = KILN_ST_CORRUPT;
+                    snprintf(e.reason, sizeof e.reason,
+                             "member name cannot be read: it is not valid in the character set "
+                             "the archive declares for it");
+                } else if (kiln_archive_sniff(e.data, e.size)) {
+                    e.status = KILN_ST_NESTED_ARCHIVE;
+                    snprintf(e.reason, sizeof e.reason, "archive inside an archive is not opened");
+                }
             }
             rc = fn(ctx, &e, err);
         }

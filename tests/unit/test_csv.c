@@ -275,6 +275,37 @@ static void test_line_numbers(void **state)
     kiln_csv_close(&r);
 }
 
+/* A UTF-8 byte-order mark (EF BB BF, the encoding of U+FEFF; Unicode 15.0 section 23.8) at the
+ * start of a file is not part of the first field; anywhere else, and any prefix of it that is
+ * not the whole mark, is data. Spreadsheet programs write one when saving "CSV UTF-8". */
+static void test_byte_order_mark(void **state)
+{
+    (void)state;
+    const char *h[] = {"path", "label", NULL}, *r[] = {"a/x.png", "loam", NULL};
+    const char *const *rows[] = {h, r};
+    const char bom[] = "\xEF\xBB\xBFpath,label\r\na/x.png,loam\r\n";
+    write_bytes(bom, sizeof bom - 1);
+    expect_rows(rows, 2);
+    /* a CR line end right after the mark still ends the row */
+    const char bom_cr[] = "\xEF\xBB\xBFpath,label\ra/x.png,loam";
+    write_bytes(bom_cr, sizeof bom_cr - 1);
+    expect_rows(rows, 2);
+    /* only the mark, or a prefix of it, is kept as data */
+    const char *p1[] = {"\xEF\xBBx", NULL}, *p2[] = {"\xEF", NULL}, *e[] = {"", NULL};
+    const char *const *rows1[] = {p1}, *const *rows2[] = {p2}, *const *rows3[] = {e};
+    write_bytes("\xEF\xBBx\n", 4);
+    expect_rows(rows1, 1);
+    write_bytes("\xEF", 1);
+    expect_rows(rows2, 1);
+    write_bytes("\xEF\xBB\xBF\n", 4);
+    expect_rows(rows3, 1);
+    /* a second mark is data */
+    const char *d[] = {"\xEF\xBB\xBFx", NULL};
+    const char *const *rows4[] = {d};
+    write_bytes("\xEF\xBB\xBF\xEF\xBB\xBFx\n", 8);
+    expect_rows(rows4, 1);
+}
+
 static void test_open_missing(void **state)
 {
     (void)state;
@@ -292,7 +323,7 @@ int main(void)
         cmocka_unit_test(test_writer_bytes),       cmocka_unit_test(test_rfc4180_examples),
         cmocka_unit_test(test_lf_only_and_empty),  cmocka_unit_test(test_round_trip_hostile),
         cmocka_unit_test(test_malformed),          cmocka_unit_test(test_line_numbers),
-        cmocka_unit_test(test_open_missing),
+        cmocka_unit_test(test_open_missing),       cmocka_unit_test(test_byte_order_mark),
     };
     return cmocka_run_group_tests(tests, setup, teardown);
 }
