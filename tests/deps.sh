@@ -7,7 +7,7 @@ libarchive-dev libssl-dev libjansson-dev libtiff-dev"
 KILN_PYTHON_PACKAGES="python3-numpy python3-pip python3-setuptools python3-wheel python3-torch"
 # Tests: reference libraries, and scikit-learn's digits and scikit-image's pictures as
 # published real images.
-KILN_TEST_PACKAGES="libcmocka-dev python3-numpy python3-pil zip xz-utils bzip2 zstd \
+KILN_TEST_PACKAGES="libcmocka-dev python3-numpy python3-pil zip xz-utils bzip2 zstd libarchive-tools \
 $KILN_PYTHON_PACKAGES python3-sklearn python3-skimage"
 
 kiln_deps_install() {
