@@ -92,6 +92,11 @@ int cmd_audit(int argc, char **argv)
         return KILN_EXIT_FAILURE;
     }
     cli_print_audit(stdout, &a, &cat, quiet, SIZE_MAX, "");
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        for (size_t k = 0; k < a.nclasses; k++)
+            if (a.missing[(size_t)s * a.nclasses + k])
+                cli_warn("class '%s' has no item in the %s split", cat.classes[k],
+                         kiln_split_name(s));
     int exit_code = a.nleaks ? KILN_EXIT_LEAK : KILN_EXIT_OK;
     kiln_audit_free(&a);
     kiln_catalog_free(&cat);

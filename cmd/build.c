@@ -136,13 +136,13 @@ int cmd_build(int argc, char **argv)
     if (!rc) {
         json_object_set_new(rec, "scan", kiln_scan_record((const char *const *)sources,
                                                           (size_t)nsrc, &so, &srep, &cat));
-        if (!quiet)
-            cli_print_scan_summary(stdout, &cat, &srep);
+        cli_print_scan_summary(stdout, &cat, &srep, so.group_regex, quiet);
     }
     int exit_code = KILN_EXIT_OK;
     if (!rc && (exit_code = cli_split_catalog(&cat, &sp, &units, &sprep)) != 0)
         rc = -1; /* already reported */
     if (!rc) {
+        cli_print_split_summary(stdout, &cat, &units, &sp, &sprep, quiet);
         json_object_set_new(rec, "split", kiln_split_record(&sp, &units, &sprep));
         po.catalog_record = rec;
         cli_progress_start(&prog, "pack", quiet);

@@ -91,9 +91,19 @@ int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
 /* Help text of each option group, shared by the commands that take it. */
 extern const char cli_scan_help[], cli_split_help[], cli_recipe_help[];
 
-/* Prints the scan summary table (statuses, skipped files) to f. */
+/* cmd/summary.c. What scan (and build) found: counts per status, the first unusable rows,
+ * skipped files, multi-page files, group rule and labels CSV matches, on f unless quiet; and
+ * on stderr always, a warning when the group rule matches no file, fewer than half of the
+ * usable files, or keeps nothing together. */
 void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
-                            const struct kiln_scan_report *rep);
+                            const struct kiln_scan_report *rep, const char *group_regex,
+                            bool quiet);
+/* What split (and build) did: units and items per split on f unless quiet; and on stderr
+ * always, every unit holding more than one label and every unit larger than its split's share
+ * (each named, with its items or size), zero shares, and classes missing from a split. */
+void cli_print_split_summary(FILE *f, const struct kiln_catalog *cat,
+                             const struct kiln_units *units, const struct kiln_split_params *p,
+                             const struct kiln_split_report *rep, bool quiet);
 
 /* Prints what pack wrote: records per split, training statistics, where the outputs are. */
 struct kiln_pack_report;
@@ -101,7 +111,7 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
                             const struct kiln_pack_report *rep, double seconds);
 
 /* Prints audit findings (each with its items and splits; at most limit findings and limit items
- * a finding, then a line pointing at `kiln audit RERUN` for the rest) and missing classes. */
+ * a finding, then a line pointing at `kiln audit RERUN` for the rest). */
 struct kiln_audit;
 void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
                      bool quiet, size_t limit, const char *rerun);

@@ -374,27 +374,6 @@ int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg)
     return 0;
 }
 
-void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
-                            const struct kiln_scan_report *rep)
-{
-    fprintf(f, "%zu files catalogued (%.1f MB), %zu classes\n", cat->n, (double)rep->bytes / 1e6,
-            cat->nclasses);
-    for (int s = 0; s < KILN_ST_COUNT; s++)
-        if (rep->status[s])
-            fprintf(f, "  %-15s %zu\n", kiln_status_name(s), rep->status[s]);
-    if (rep->hidden || rep->junk)
-        fprintf(f, "skipped without a row: %zu hidden, %zu system files\n", rep->hidden, rep->junk);
-    for (size_t i = 0, shown = 0; i < cat->n && shown < 10; i++) {
-        const struct kiln_item *it = &cat->items[i];
-        if (it->status == KILN_ST_OK)
-            continue;
-        char rel[2048];
-        kiln_item_relname(it->path, it->member, rel, sizeof rel);
-        fprintf(f, "  %s: %s/%s: %s\n", kiln_status_name(it->status), it->source, rel, it->reason);
-        shown++;
-    }
-}
-
 char **cli_sources_new(int n, char **argv)
 {
     char **s = calloc((size_t)n + 1, sizeof *s);
@@ -549,11 +528,6 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
             fprintf(f, "  %-5s %s/%s\n", kiln_split_name(it->split), it->source, rel);
         }
     }
-    for (int s = 0; s < KILN_NSPLITS; s++)
-        for (size_t c = 0; c < a->nclasses; c++)
-            if (a->missing[(size_t)s * a->nclasses + c])
-                cli_warn("class '%s' has no item in the %s split", cat->classes[c],
-                         kiln_split_name(s));
     if (!quiet) {
         char near[64] = "";
         if (a->near_bits >= 0)

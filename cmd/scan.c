@@ -104,16 +104,9 @@ int cmd_scan(int argc, char **argv)
             cli_error("%s", err.msg);
             exit_code = cli_exit_for(rc) == KILN_EXIT_INPUT ? KILN_EXIT_FAILURE : cli_exit_for(rc);
         } else {
-            if (!quiet) {
-                cli_print_scan_summary(stdout, &cat, &rep);
-                if (rep.csv_rows_unused)
-                    printf("labels CSV: %zu of %zu rows match no file (first: %s)\n",
-                           rep.csv_rows_unused, rep.csv_rows, rep.first_unused_csv_row);
-                if (o.group_regex)
-                    printf("group rule matched %zu of %zu usable files\n", rep.group_matched,
-                           rep.group_matched + rep.group_unmatched);
+            cli_print_scan_summary(stdout, &cat, &rep, o.group_regex, quiet);
+            if (!quiet)
                 printf("catalogue written to %s in %.2f s\n", output, cli_elapsed(&prog));
-            }
             if (strict && rep.status[KILN_ST_OK] != cat.n) {
                 cli_error("%zu of %zu rows are not ok (--strict)", cat.n - rep.status[KILN_ST_OK],
                           cat.n);

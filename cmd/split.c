@@ -109,31 +109,10 @@ int cmd_split(int argc, char **argv)
     if (rc) {
         cli_error("%s", err.msg);
         exit_code = KILN_EXIT_FAILURE;
-    } else if (!quiet) {
-        char ratios[96];
-        kiln_split_format_ratios(&p, ratios, sizeof ratios);
-        printf("%zu units from %zu usable items (seed %llu, ratios %s, %s mode%s)\n", rep.units,
-               rep.items[0] + rep.items[1] + rep.items[2], (unsigned long long)p.seed, ratios,
-               kiln_split_mode_name(p.mode), p.stratify ? ", stratified" : "");
-        for (int s = 0; s < KILN_NSPLITS; s++)
-            if (s != KILN_SPLIT_VAL || p.nparts == 3)
-                printf("  %-5s %zu items in %zu units\n", kiln_split_name(s), rep.items[s],
-                       rep.units_per_split[s]);
-        if (units.merged_bytes || units.merged_pixels || units.merged_groups || units.merged_near)
-            printf("kept together: %zu by group, %zu identical files, %zu identical pixels, %zu "
-                   "near duplicates\n",
-                   units.merged_groups, units.merged_bytes, units.merged_pixels,
-                   units.merged_near);
-        if (p.keep_manifest)
-            printf("kept from %s: %zu items in %zu units\n", p.keep_manifest, rep.kept_items,
-                   rep.kept_units);
-        if (rep.mixed_units)
-            cli_warn("%zu units hold items of more than one label", rep.mixed_units);
-        if (rep.oversized_units)
-            cli_warn("%zu units are larger than their split's target share", rep.oversized_units);
-        for (int s = 0; s < KILN_NSPLITS; s++)
-            if (p.ratio[s] == 0 && (s != KILN_SPLIT_VAL || p.nparts == 3))
-                cli_warn("the %s split has a zero share", kiln_split_name(s));
+    } else {
+        cli_print_split_summary(stdout, &cat, &units, &p, &rep, quiet);
+    }
+    if (!rc && !quiet) {
         if (had_split)
             printf("(the catalogue's previous split was replaced)\n");
         printf("split catalogue written to %s\n", output);

@@ -334,9 +334,12 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
                     }
                 }
                 un->split = (int8_t)best;
-                /* Oversized: the unit alone exceeds the split's whole target r_s * N / R. */
-                if (un->size > 1 && (__int128)un->size * R > (__int128)p->ratio[best] * total)
-                    rep->oversized_units++;
+                /* Oversized: the unit alone exceeds twice the split's target r_s * N / R.
+                 * Smaller excesses are the granularity of whole units, which every small
+                 * stratum with a few shots per specimen shows (docs/split.md). */
+                un->oversized = un->size > 1 && (__int128)un->size * R >
+                                                    2 * (__int128)p->ratio[best] * total;
+                rep->oversized_units += un->oversized;
                 count[best] += un->size;
             }
             i = j;

@@ -49,7 +49,7 @@ struct kiln_split_report {
     size_t units, mixed_units;
     size_t items[KILN_NSPLITS];
     size_t units_per_split[KILN_NSPLITS];
-    size_t oversized_units; /* units larger than their stratum's target for the split they got */
+    size_t oversized_units; /* units larger than twice their stratum's target for their split */
     size_t kept_units, kept_items; /* units and items placed by --keep */
     size_t moved_items;            /* old items whose split changed (conflicts resolved) */
 };

@@ -527,10 +527,13 @@ static int process(struct worker *w, struct job *j)
     if (lr)
         lr->used = 1;
     if (run->have_re && it.status == KILN_ST_OK) {
-        if (matched)
+        if (matched) {
             run->rep->group_matched++;
-        else
-            run->rep->group_unmatched++;
+        } else {
+            /* The smallest name, not the first seen: workers finish in any order. */
+            if (!run->rep->group_unmatched++ || strcmp(rel, run->rep->first_unmatched) < 0)
+                snprintf(run->rep->first_unmatched, sizeof run->rep->first_unmatched, "%s", rel);
+        }
     }
     rc = kiln_catalog_add(run->cat, &it, &w->err);
     run->rep->bytes += j->size;
@@ -567,6 +570,35 @@ static void *worker_main(void *arg)
         }
     }
     return NULL;
+}
+
+static int cmp_str_ptr(const void *a, const void *b)
+{
+    return strcmp(*(const char *const *)a, *(const char *const *)b);
+}
+
+/* Distinct group keys of usable rows, and how many hold two files or more: a group rule that
+ * matches but keeps nothing together is as likely a mistake as one that matches nothing. */
+static int count_groups(const struct kiln_catalog *cat, struct kiln_scan_report *rep,
+                        struct kiln_err *err)
+{
+    const char **keys = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *keys);
+    if (!keys)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot count the groups of %zu rows", cat->n);
+    size_t n = 0;
+    for (size_t i = 0; i < cat->n; i++)
+        if (cat->items[i].status == KILN_ST_OK && cat->items[i].group[0])
+            keys[n++] = cat->items[i].group;
+    if (n > 1)
+        qsort(keys, n, sizeof *keys, cmp_str_ptr);
+    for (size_t i = 0, j; i < n; i = j) {
+        for (j = i + 1; j < n && strcmp(keys[j], keys[i]) == 0;)
+            j++;
+        rep->groups++;
+        rep->groups_shared += j - i > 1;
+    }
+    free(keys);
+    return KILN_OK;
 }
 
 int kiln_stage_scan(const char *const *sources, size_t nsources, const struct kiln_scan_opts *o,
@@ -670,6 +702,8 @@ out:
         kiln_catalog_sort(cat);
         rc = kiln_catalog_index_classes(cat, err);
         kiln_catalog_count_status(cat, rep->status);
+        if (!rc)
+            rc = count_groups(cat, rep, err);
     }
     pthread_mutex_destroy(&run.mu);
     kiln_queue_destroy(&run.q);

@@ -43,7 +43,9 @@ struct kiln_scan_report {
     size_t hidden, junk;
     size_t status[KILN_ST_COUNT];
     uint64_t bytes;
-    size_t group_matched, group_unmatched; /* with a group rule */
+    size_t group_matched, group_unmatched; /* usable files, with a group rule */
+    char first_unmatched[256]; /* byte-wise smallest relative name the group rule missed */
+    size_t groups, groups_shared; /* distinct group keys of usable files; those with 2+ files */
     size_t csv_rows, csv_rows_unused; /* label CSV rows, and rows that matched no file */
     char first_unused_csv_row[256];
 };

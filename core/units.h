@@ -22,6 +22,7 @@ struct kiln_unit {
     int32_t stratum;   /* most frequent class index, ties to the smallest; -1 = unlabelled */
     uint8_t id_kind;   /* enum kiln_unit_id_kind */
     uint8_t mixed;     /* members carry more than one label */
+    uint8_t oversized; /* exact mode: the unit alone exceeds twice its split's target */
     int8_t split;
 };
 
