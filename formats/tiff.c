@@ -103,20 +103,34 @@ static int on_warning(TIFF *tif, void *user, const char *module, const char *fmt
     return 1; /* warnings (unknown tags, ...) do not change pixels */
 }
 
-static TIFF *tiff_open(struct tiff_mem *m, const uint8_t *data, size_t len)
+static int error_code(const struct tiff_mem *m);
+
+/* Opens the TIFF in memory; on failure returns NULL with err set. libtiff fails without
+ * calling the error handler for a header whose first directory offset is 0 or past the end
+ * (a file cut short after its 8-byte header): that is a broken file, not a failure of the run. */
+static TIFF *tiff_open(struct tiff_mem *m, const uint8_t *data, size_t len, struct kiln_err *err)
 {
     memset(m, 0, sizeof *m);
     m->data = data;
     m->len = len;
     TIFFOpenOptions *opts = TIFFOpenOptionsAlloc();
-    if (!opts)
+    if (!opts) {
+        kiln_err_set(err, KILN_ENOMEM, "TIFF reader could not be created");
         return NULL;
+    }
     TIFFOpenOptionsSetMaxSingleMemAlloc(opts, TIFF_MAX_ALLOC);
     TIFFOpenOptionsSetErrorHandlerExtR(opts, on_error, m);
     TIFFOpenOptionsSetWarningHandlerExtR(opts, on_warning, m);
     TIFF *tif = TIFFClientOpenExt("tiff", "r", (thandle_t)m, mem_read, mem_write, mem_seek,
                                   mem_close, mem_size, mem_map, mem_unmap, opts);
     TIFFOpenOptionsFree(opts);
+    if (!tif) {
+        if (m->errors)
+            kiln_err_set(err, error_code(m), "TIFF %s", m->error);
+        else
+            kiln_err_set(err, len < 16 ? KILN_ETRUNCATED : KILN_ECORRUPT,
+                         "TIFF has no image directory that can be read (%zu bytes)", len);
+    }
     return tif;
 }
 
@@ -219,10 +233,9 @@ static int tiff_read_info_fn(const uint8_t *data, size_t len, const struct kiln_
 {
     (void)lim; /* libtiff reads only the directory here; the caller checks the size */
     struct tiff_mem m;
-    TIFF *tif = tiff_open(&m, data, len);
+    TIFF *tif = tiff_open(&m, data, len, err);
     if (!tif)
-        return kiln_err_set(err, m.errors ? error_code(&m) : KILN_ENOMEM, "TIFF %s",
-                            m.errors ? m.error : "reader could not be created");
+        return err->code;
     struct tiff_shape s;
     int rc = tiff_shape_of(tif, &m, &s, err);
     if (!rc) {
@@ -388,10 +401,9 @@ static int tiff_decode_fn(const uint8_t *data, size_t len, const struct kiln_ima
     if (denom != 1)
         return kiln_err_set(err, KILN_EINTERNAL, "TIFF cannot decode at 1/%u scale", denom);
     struct tiff_mem m;
-    TIFF *tif = tiff_open(&m, data, len);
+    TIFF *tif = tiff_open(&m, data, len, err);
     if (!tif)
-        return kiln_err_set(err, m.errors ? error_code(&m) : KILN_ENOMEM, "TIFF %s",
-                            m.errors ? m.error : "reader could not be created");
+        return err->code;
     struct tiff_shape s;
     int rc = tiff_shape_of(tif, &m, &s, err);
     if (!rc && (s.w != want->width || s.h != want->height || s.channels != out->channels ||

@@ -85,6 +85,10 @@ def make(root):
     put("bad/bomb.png", png_with_ihdr(100000, 100000), "too-large")
     put("bad/zero.png", png_with_ihdr(0, 0), "corrupt")
     put("bad/depth3.png", png_with_ihdr(8, 8, depth=3, ctype=0), "corrupt")
+    # A TIFF cut after its 8-byte header (TIFF 6.0 section 2: byte order, 42, first IFD offset):
+    # libtiff fails without an error message, and that must stay a row, not end the scan.
+    put("bad/trunc-header.tif", b"II*\0\0\0\0\0", "truncated")
+    put("bad/ifd-past-end.tif", b"MM\0*\0\0\1\0" + b"\0" * 16, "corrupt")
     put("bad/pnm-maxval.pgm", b"P5 4 4 70000\n" + b"\0" * 32, "corrupt")
     put("bad/pnm-short.pgm", b"P5 4 4 255\n" + b"\0" * 7, "truncated")
     # Non-UTF-8 file name: kept byte-exact (escaped in the CSV), still usable.
