@@ -105,9 +105,24 @@ static int on_warning(TIFF *tif, void *user, const char *module, const char *fmt
 
 static int error_code(const struct tiff_mem *m);
 
-/* Opens the TIFF in memory; on failure returns NULL with err set. libtiff fails without
- * calling the error handler for a header whose first directory offset is 0 or past the end
- * (a file cut short after its 8-byte header): that is a broken file, not a failure of the run. */
+/* The offset of the first image directory from the header (TIFF 6.0 section 2; BigTIFF keeps
+ * it as 8 bytes at offset 8), or UINT64_MAX when the header itself is cut short. The probe has
+ * already checked the byte order mark and the version. */
+static uint64_t first_ifd_offset(const uint8_t *d, size_t len)
+{
+    const bool le = d[0] == 'I', big = d[le ? 2 : 3] == 43;
+    const size_t at = big ? 8 : 4, n = big ? 8 : 4;
+    if (len < at + n)
+        return UINT64_MAX;
+    uint64_t v = 0;
+    for (size_t j = 0; j < n; j++)
+        v |= (uint64_t)d[at + j] << (8 * (le ? j : n - 1 - j));
+    return v;
+}
+
+/* Opens the TIFF in memory; on failure returns NULL with err set. A file that ends before its
+ * first image directory (cut after the header) is truncated; libtiff reports nothing for a
+ * directory offset of 0, which used to pass for a failure of the run. */
 static TIFF *tiff_open(struct tiff_mem *m, const uint8_t *data, size_t len, struct kiln_err *err)
 {
     memset(m, 0, sizeof *m);
@@ -125,11 +140,19 @@ static TIFF *tiff_open(struct tiff_mem *m, const uint8_t *data, size_t len, stru
                                   mem_close, mem_size, mem_map, mem_unmap, opts);
     TIFFOpenOptionsFree(opts);
     if (!tif) {
-        if (m->errors)
+        const uint64_t ifd = first_ifd_offset(data, len);
+        if (ifd == UINT64_MAX || (ifd == 0 && len <= 16)) /* a writer that died early */
+            kiln_err_set(err, KILN_ETRUNCATED, "TIFF ends with its header (%zu bytes)", len);
+        else if (ifd >= len)
+            kiln_err_set(err, KILN_ETRUNCATED,
+                         "TIFF ends before its first image directory (at byte %llu of %zu)",
+                         (unsigned long long)ifd, len);
+        else if (ifd == 0)
+            kiln_err_set(err, KILN_ECORRUPT, "TIFF header points to no image directory");
+        else if (m->errors)
             kiln_err_set(err, error_code(m), "TIFF %s", m->error);
         else
-            kiln_err_set(err, len < 16 ? KILN_ETRUNCATED : KILN_ECORRUPT,
-                         "TIFF has no image directory that can be read (%zu bytes)", len);
+            kiln_err_set(err, KILN_ECORRUPT, "TIFF has no image directory that can be read");
     }
     return tif;
 }

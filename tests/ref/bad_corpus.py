@@ -88,7 +88,7 @@ def make(root):
     # A TIFF cut after its 8-byte header (TIFF 6.0 section 2: byte order, 42, first IFD offset):
     # libtiff fails without an error message, and that must stay a row, not end the scan.
     put("bad/trunc-header.tif", b"II*\0\0\0\0\0", "truncated")
-    put("bad/ifd-past-end.tif", b"MM\0*\0\0\1\0" + b"\0" * 16, "corrupt")
+    put("bad/ifd-past-end.tif", b"MM\0*\0\0\1\0" + b"\0" * 16, "truncated")
     put("bad/pnm-maxval.pgm", b"P5 4 4 70000\n" + b"\0" * 32, "corrupt")
     put("bad/pnm-short.pgm", b"P5 4 4 255\n" + b"\0" * 7, "truncated")
     # Non-UTF-8 file name: kept byte-exact (escaped in the CSV), still usable.
