@@ -319,21 +319,43 @@ static int got_member(void *ctx, struct kiln_source_entry *e, struct kiln_err *e
     struct archive_fetch *f = ctx;
     struct pack_run *run = f->run;
     const struct kiln_item *items = run->cat->items;
-    /* Duplicate member names are possible in tar: give the bytes to the first undelivered. */
-    for (size_t k = f->first; k < f->last; k++) {
+    /* Duplicate member names are possible in tar: the bytes go to the first undelivered item
+     * of that name, and copies to every other one recorded with the same content (reproduce
+     * finds two identical recorded files in one member). The copies are queued first: once
+     * queued, the original belongs to a worker. */
+    size_t first = f->first;
+    while (first < f->last && (run->delivered[f->fetch[first]] ||
+                               strcmp(fetch_member(&items[f->fetch[first]]), e->member) != 0))
+        first++;
+    if (first == f->last) {
+        free(e->data);
+        return KILN_OK;
+    }
+    const struct kiln_item *it = &items[f->fetch[first]];
+    if (e->status != KILN_ST_OK) {
+        char name[2048];
+        free(e->data);
+        return kiln_err_set(err, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
+                            item_name(it, name, sizeof name), e->reason);
+    }
+    for (size_t k = first + 1; k < f->last; k++) {
         uint32_t i = f->fetch[k];
-        if (!run->delivered[i] && strcmp(fetch_member(&items[i]), e->member) == 0) {
-            if (e->status != KILN_ST_OK) {
-                char name[2048];
-                free(e->data);
-                return kiln_err_set(err, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
-                                    item_name(&items[i], name, sizeof name), e->reason);
-            }
-            return queue_job(run, i, e->data, e->size, err);
+        if (run->delivered[i] || strcmp(fetch_member(&items[i]), e->member) != 0 ||
+            memcmp(items[i].sha256, it->sha256, sizeof it->sha256) != 0)
+            continue;
+        uint8_t *copy = malloc(e->size ? e->size : 1);
+        if (!copy) {
+            free(e->data);
+            return kiln_err_set(err, KILN_ENOMEM, "cannot copy %zu bytes", e->size);
+        }
+        memcpy(copy, e->data, e->size);
+        int rc = queue_job(run, i, copy, e->size, err);
+        if (rc) {
+            free(e->data);
+            return rc;
         }
     }
-    free(e->data);
-    return KILN_OK;
+    return queue_job(run, f->fetch[first], e->data, e->size, err);
 }
 
 static int read_plain(struct pack_run *run, uint32_t i, struct kiln_err *e)

@@ -6,7 +6,8 @@
 # the label and group of the builder's ground truth and the same split, under LC_ALL=C and
 # C.UTF-8 alike (the catalogues must be byte-identical between the locales). A zip that flags
 # a non-UTF-8 name as UTF-8 keeps the member as a row with a status. Members with UTF-8 and
-# raw names are packed, found again by verify --source and rebuilt by reproduce.
+# raw names are packed, found again by verify --source and rebuilt by reproduce, also when two
+# identical recorded files are now one archive member.
 . "$(dirname "$0")/lib.sh"
 need_python
 for t in tar gzip bzip2 xz zstd; do command -v $t >/dev/null || skip "$t is needed"; done
@@ -56,4 +57,15 @@ PY
 done
 grep -q 'kalk/K9_a_%E4.png' "$work/out-noflag.zip/items.csv" ||
     fail "the non-UTF-8 member name is not kept byte for byte (escaped)"
+# Two identical recorded files that now exist once, as one member of a ./ tarball: reproduce
+# finds both there, and pack must read that one member for both of them.
+mkdir -p "$work/twins/loam" "$work/later/loam"
+cp "$work/tree/loam/T01_a.png" "$work/twins/loam/T01_a.png"
+cp "$work/tree/loam/T01_a.png" "$work/twins/loam/T09_a.png"
+cp "$work/tree/loam/T02_a.jpg" "$work/twins/loam/T02_a.jpg"
+cp "$work/twins/loam/T01_a.png" "$work/twins/loam/T02_a.jpg" "$work/later/loam/"
+tar -C "$work/later" -czf "$work/later.tgz" .
+expect_exit 0 "$KILN" build "$work/twins" -o "$work/tw1" --seed 3 --size 12 --ratios 100:0:0
+expect_exit 0 "$KILN" reproduce "$work/tw1/manifest.json" --source "$work/later.tgz" -o "$work/tw2"
+grep -q "every output is byte-identical" "$work/stdout" || fail "twins: $(cat "$work/stdout")"
 echo ok
