@@ -8,7 +8,7 @@ KILN_PYTHON_PACKAGES="python3-numpy python3-pip python3-setuptools python3-wheel
 # Tests: reference libraries, and scikit-learn's digits and scikit-image's pictures as
 # published real images.
 KILN_TEST_PACKAGES="libcmocka-dev python3-numpy python3-pil zip xz-utils bzip2 zstd libarchive-tools \
-$KILN_PYTHON_PACKAGES python3-sklearn python3-skimage"
+$KILN_PYTHON_PACKAGES python3-sklearn python3-skimage python-matplotlib-data python3-tifffile"
 
 kiln_deps_install() {
     local pkgs="$1" missing="" p
