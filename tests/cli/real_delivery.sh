@@ -23,19 +23,10 @@ expect_exit 0 env LC_ALL=C.UTF-8 "$KILN" build delivery -o out "${common[@]}"
 grep -q "^  group 'S14' (5 items" "$work/stderr" || fail "mixed-label unit not named: $(cat "$work/stderr")"
 grep -q "^1 multi-page file: only the first page" "$work/stdout" || fail "multi-page TIFF not reported"
 # The default run: identical to the exact one except the DCT-reduced JPEGs, which must stay
-# within the PSNR floor of docs/resize.md against PIL's full-size decode and resize.
-# Issue 11 item 3 (DCT-domain geometry computed from the reduced size) is being fixed: until
-# that fix is on main, 6 of the 7 reduced shots (odd sizes) miss the floor by up to 6 dB; the
-# failure is reported as a skipped sub-check instead of failing the test. Set to yes when
-# item 3 lands.
-dct_geometry_fixed=no
-rc=0
-"$PYTHON" "$ref" check "$work" out || rc=$?
-if [ $rc = 3 ] && [ $dct_geometry_fixed = no ]; then
-    echo "SKIP (sub-check): DCT-reduced JPEGs below the PSNR floor: issue 11 item 3 (DCT geometry)"
-elif [ $rc != 0 ]; then
-    fail "default recipe against PIL"
-fi
+# within the PSNR floor of docs/resize.md against PIL's full-size decode and resize. (Before the
+# DCT geometry fix, issue 11 item 3, 6 of the 7 reduced shots at odd sizes missed it by up to
+# 6 dB.)
+"$PYTHON" "$ref" check "$work" out || fail "default recipe against PIL"
 # Found again by name and by content, and rebuilt byte for byte, whatever the locale.
 expect_exit 0 env LC_ALL=C "$KILN" verify out --source delivery
 grep -q "sources: all [0-9]* recorded files found (0 moved" "$work/stdout" ||
