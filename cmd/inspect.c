@@ -30,6 +30,11 @@ static void print_stats(const json_t *st, const char *title)
     const json_t *c;
     json_array_foreach(ch, i, c)
     {
+        if (!json_is_number(json_object_get(c, "mean"))) { /* null: no records in the split */
+            printf("  channel %zu: no values (%lld samples)\n", i,
+                   (long long)json_integer_value(json_object_get(c, "count")));
+            continue;
+        }
         printf("  channel %zu: mean %.6f std %.6f (unit scale: mean %.6f std %.6f) min %lld max "
                "%lld\n",
                i, json_real_value(json_object_get(c, "mean")),

@@ -481,8 +481,11 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
             total += rep->records[s];
         }
     const double maxv = r->depth == 16 ? 65535.0 : 255.0;
-    fprintf(f, "training statistics, [0,1] scale (population std):\n");
-    for (unsigned c = 0; c < r->channels; c++) {
+    if (rep->records[KILN_SPLIT_TRAIN] == 0)
+        fprintf(f, "training statistics: none, the training split is empty\n");
+    else
+        fprintf(f, "training statistics, [0,1] scale (population std):\n");
+    for (unsigned c = 0; c < r->channels && rep->records[KILN_SPLIT_TRAIN]; c++) {
         struct kiln_stats_summary u;
         struct kiln_err e;
         if (kiln_stats_summarize(&rep->stats[KILN_SPLIT_TRAIN].ch[c], maxv, &u, &e) == 0)

@@ -1092,6 +1092,10 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     run.delivered = calloc(cat->n ? cat->n : 1, 1);
     rc = run.delivered ? plan_records(&run, err)
                        : kiln_err_set(err, KILN_ENOMEM, "cannot plan %zu records", cat->n);
+    if (!rc && r->dtype == KILN_OUT_F32 && rep->records[KILN_SPLIT_TRAIN] == 0)
+        rc = kiln_err_set(err, KILN_EINVAL,
+                          "the training split is empty, so --dtype f32 has no training "
+                          "statistics to normalise with (use u8 or u16, or other ratios)");
     if (!rc)
         rc = o->pool ? KILN_OK : kiln_pack_prepare_outdir(o->outdir, err);
     if (!rc)

@@ -3,6 +3,7 @@
 
 #include <archive.h>
 #include <openssl/crypto.h>
+#include <stdbool.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -176,18 +177,21 @@ json_t *kiln_stats_to_json(const struct kiln_stats *s, double maxval, struct kil
             json_decref(chans);
             return NULL;
         }
+        /* Undefined values are null, never 0: an empty split has no mean, minimum or spread,
+         * and one sample has no sample standard deviation (docs/statistics.md). */
+        const bool any = out.count > 0, two = out.count > 1;
         json_t *o = json_object();
         json_object_set_new(o, "count", json_integer((json_int_t)s->ch[c].count));
         json_object_set_new(o, "sum", u128_string(s->ch[c].sum));
         json_object_set_new(o, "sum_of_squares", u128_string(s->ch[c].sumsq));
-        json_object_set_new(o, "min", json_integer(out.count ? out.min : 0));
-        json_object_set_new(o, "max", json_integer(out.count ? out.max : 0));
-        json_object_set_new(o, "mean", json_real(out.mean));
-        json_object_set_new(o, "std", json_real(out.std_pop));
-        json_object_set_new(o, "std_sample", json_real(out.std_sample));
-        json_object_set_new(o, "mean_unit", json_real(unit.mean));
-        json_object_set_new(o, "std_unit", json_real(unit.std_pop));
-        json_object_set_new(o, "std_sample_unit", json_real(unit.std_sample));
+        json_object_set_new(o, "min", any ? json_integer(out.min) : json_null());
+        json_object_set_new(o, "max", any ? json_integer(out.max) : json_null());
+        json_object_set_new(o, "mean", any ? json_real(out.mean) : json_null());
+        json_object_set_new(o, "std", any ? json_real(out.std_pop) : json_null());
+        json_object_set_new(o, "std_sample", two ? json_real(out.std_sample) : json_null());
+        json_object_set_new(o, "mean_unit", any ? json_real(unit.mean) : json_null());
+        json_object_set_new(o, "std_unit", any ? json_real(unit.std_pop) : json_null());
+        json_object_set_new(o, "std_sample_unit", two ? json_real(unit.std_sample) : json_null());
         json_array_append_new(chans, o);
     }
     return chans;
