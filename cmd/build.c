@@ -116,6 +116,7 @@ int cmd_build(int argc, char **argv)
         free((void *)po.path_key);
         return cli_exit_for(prc);
     }
+    cli_report_debris(po.outdir, &pool.debris);
     so.pool = po.pool = &pool;
     so.limits.max_pixels = po.recipe.max_pixels;
     so.limits.max_side = po.recipe.max_side;

@@ -116,6 +116,11 @@ struct kiln_audit;
 void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
                      bool quiet, size_t limit, const char *rerun);
 
+/* Says on stderr what preparing an output folder removed or left (interrupted runs' temporary
+ * files); silent when there was nothing. */
+struct kiln_debris;
+void cli_report_debris(const char *outdir, const struct kiln_debris *d);
+
 /* The path of the JSON record that sits beside a catalogue ("x.csv" -> "x.json"); malloc'ed. */
 char *cli_catalog_record_path(const char *catalog_csv);
 

@@ -457,6 +457,19 @@ int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
     return KILN_EXIT_OK;
 }
 
+void cli_report_debris(const char *outdir, const struct kiln_debris *d)
+{
+    if (d->removed)
+        cli_warn("removed %zu temporary %s (%.1f MB, %llu bytes) that an interrupted run left in "
+                 "%s",
+                 d->removed, d->removed == 1 ? "file" : "files", (double)d->bytes / 1e6,
+                 (unsigned long long)d->bytes, outdir);
+    if (d->kept)
+        cli_warn("%s holds %zu temporary %s of another kiln process that is still running; they "
+                 "were left alone",
+                 outdir, d->kept, d->kept == 1 ? "file" : "files");
+}
+
 char *cli_catalog_record_path(const char *csv)
 {
     size_t n = strlen(csv);

@@ -109,6 +109,7 @@ int cmd_pack(int argc, char **argv)
     struct kiln_pack_report rep;
     rc = kiln_stage_pack(&cat, &o, &rep, &err);
     cli_progress_done(&prog);
+    cli_report_debris(o.outdir, &rep.debris);
     int exit_code = KILN_EXIT_OK;
     if (rc) {
         cli_error("%s", err.msg);

@@ -95,6 +95,7 @@ int cmd_reproduce(int argc, char **argv)
     kiln_err_clear(&err);
     int rc = kiln_stage_reproduce(&o, on_note, &n, &rep, &err);
     cli_progress_done(&prog);
+    cli_report_debris(o.outdir, &rep.debris);
     free(sources);
     if (n.moved_shown > 10)
         printf("moved: ... and %zu more\n", n.moved_shown - 10);

@@ -21,7 +21,7 @@ int kiln_record_pool_open(struct kiln_record_pool *p, const char *outdir,
     atomic_init(&p->next, 0u);
     if (!p->record_bytes)
         return kiln_err_set(err, KILN_EINVAL, "record size overflows");
-    int rc = kiln_pack_prepare_outdir(outdir, err);
+    int rc = kiln_pack_prepare_outdir(outdir, &p->debris, err);
     if (rc)
         return rc;
     size_t n = strlen(outdir) + sizeof "/records.pool";

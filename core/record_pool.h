@@ -12,6 +12,7 @@
 #include "../formats/outfile.h"
 #include "err.h"
 #include "recipe.h"
+#include "stage_pack.h"
 
 #define KILN_NO_SLOT UINT32_MAX
 
@@ -20,6 +21,7 @@ struct kiln_record_pool {
     const struct kiln_recipe *recipe;
     size_t record_bytes; /* one integer record (depth 8 or 16, before any f32 conversion) */
     atomic_uint next;    /* next free slot */
+    struct kiln_debris debris; /* what preparing the output folder removed */
 };
 
 /* Prepares outdir as pack does (created; empty or an earlier kiln output whose manifest is

@@ -6,6 +6,8 @@
 #include "stage_pack.h"
 
 #include <dirent.h>
+#include <fcntl.h>
+#include <signal.h>
 #include <errno.h>
 #include <inttypes.h>
 #include <pthread.h>
@@ -173,6 +175,53 @@ static char *out_path(const char *dir, const char *name)
 static const char *const owned_names[] = {"manifest.json", "SHA256SUMS", "items.csv", "catalog.csv",
                                           "train.kten",    "val.kten",   "test.kten", "run.log"};
 
+/* Final names whose temporary files (".<name>.tmp-<pid>-<n>", formats/outfile.c) pack and build
+ * create in an output folder: the outputs and the scratch record pool. */
+static const char *const temp_bases[] = {"manifest.json", "SHA256SUMS", "items.csv",
+                                         "catalog.csv",   "train.kten", "val.kten",
+                                         "test.kten",     "records.pool"};
+
+static bool is_kiln_temp(const char *name, long *pid)
+{
+    for (size_t i = 0; i < sizeof temp_bases / sizeof temp_bases[0]; i++)
+        if (kiln_outfile_is_temp_name(name, temp_bases[i], pid))
+            return true;
+    return false;
+}
+
+static bool process_alive(long pid)
+{
+    return pid == (long)getpid() || kill((pid_t)pid, 0) == 0 || errno == EPERM;
+}
+
+/* Removes what an interrupted run left: only regular files (never a link) whose names kiln's
+ * temporary-name pattern gives for one of its own outputs, and only when the process that made
+ * them is gone (a run still writing into the folder keeps its files; they are counted). */
+static int sweep_debris(DIR *d, const char *dir, struct kiln_debris *debris, struct kiln_err *err)
+{
+    const int fd = dirfd(d);
+    rewinddir(d);
+    struct dirent *de;
+    while ((de = readdir(d)) != NULL) {
+        long pid;
+        struct stat st;
+        if (de->d_name[0] != '.' || !is_kiln_temp(de->d_name, &pid) ||
+            fstatat(fd, de->d_name, &st, AT_SYMLINK_NOFOLLOW) != 0 || !S_ISREG(st.st_mode))
+            continue;
+        if (process_alive(pid)) {
+            debris->kept++;
+            continue;
+        }
+        if (unlinkat(fd, de->d_name, 0) != 0 && errno != ENOENT)
+            return kiln_err_sys(err, KILN_EIO, errno,
+                                "cannot remove %s/%s, left by an interrupted run", dir,
+                                de->d_name);
+        debris->removed++;
+        debris->bytes += (uint64_t)st.st_size;
+    }
+    return KILN_OK;
+}
+
 static bool is_owned(const char *name)
 {
     for (size_t i = 0; i < sizeof owned_names / sizeof owned_names[0]; i++)
@@ -181,10 +230,12 @@ static bool is_owned(const char *name)
     return false;
 }
 
-/* Accepts an empty folder or an earlier kiln output; removes the old manifest and checksum
- * list first, so from here until the new ones are written nothing claims to be complete. */
-int kiln_pack_prepare_outdir(const char *dir, struct kiln_err *err)
+/* Accepts an empty folder or an earlier kiln output; removes the debris of interrupted runs,
+ * then the old manifest and checksum list, so from here until the new ones are written nothing
+ * claims to be complete. */
+int kiln_pack_prepare_outdir(const char *dir, struct kiln_debris *debris, struct kiln_err *err)
 {
+    memset(debris, 0, sizeof *debris);
     int rc = make_dirs(dir, err);
     if (rc)
         return rc;
@@ -204,12 +255,17 @@ int kiln_pack_prepare_outdir(const char *dir, struct kiln_err *err)
             snprintf(foreign_name, sizeof foreign_name, "%s", de->d_name);
         }
     }
-    closedir(d);
-    if (foreign && !has_manifest)
+    if (foreign && !has_manifest) {
+        closedir(d);
         return kiln_err_set(err, KILN_EINVAL,
                             "output folder %s holds '%s' and no kiln manifest; use an empty or "
                             "new folder",
                             dir, foreign_name);
+    }
+    rc = sweep_debris(d, dir, debris, err);
+    closedir(d);
+    if (rc)
+        return rc;
     for (int k = 0; k < 2; k++) {
         char *p = out_path(dir, owned_names[k]);
         if (!p)
@@ -1097,7 +1153,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
                           "the training split is empty, so --dtype f32 has no training "
                           "statistics to normalise with (use u8 or u16, or other ratios)");
     if (!rc)
-        rc = o->pool ? KILN_OK : kiln_pack_prepare_outdir(o->outdir, err);
+        rc = o->pool ? KILN_OK : kiln_pack_prepare_outdir(o->outdir, &rep->debris, err);
     if (!rc)
         rc = open_outputs(&run, err);
     run.prog.total_items = packed;

@@ -32,7 +32,16 @@ struct kiln_pack_opts {
     struct kiln_record_pool *pool;
 };
 
+/* Temporary files that interrupted runs left in an output folder (docs/cli.md, "Interrupted
+ * runs"). */
+struct kiln_debris {
+    size_t removed;  /* files removed */
+    uint64_t bytes;  /* their total size */
+    size_t kept;     /* files of a process that is still running, left alone */
+};
+
 struct kiln_pack_report {
+    struct kiln_debris debris;   /* found when the output folder was prepared */
     bool present[KILN_NSPLITS];  /* a file was written for the split */
     size_t records[KILN_NSPLITS];
     struct kiln_stats stats[KILN_NSPLITS];
@@ -48,9 +57,11 @@ struct kiln_pack_report {
 int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
                     struct kiln_pack_report *rep, struct kiln_err *err);
 
-/* Creates outdir if needed and checks it is empty or an earlier kiln output, then removes the
- * old manifest and checksum list (hidden temporary files are ignored). */
-int kiln_pack_prepare_outdir(const char *outdir, struct kiln_err *err);
+/* Creates outdir if needed and checks it is empty or an earlier kiln output, removes the
+ * temporary files interrupted kiln runs left there (counted in debris), then removes the old
+ * manifest and checksum list. */
+int kiln_pack_prepare_outdir(const char *outdir, struct kiln_debris *debris,
+                             struct kiln_err *err);
 
 struct kiln_record_pool;
 

@@ -251,6 +251,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     po.progress_ctx = o->progress_ctx;
     struct kiln_pack_report prep;
     rc = kiln_stage_pack(&cat, &po, &prep, err);
+    rep->debris = prep.debris;
     if (rc)
         goto out;
     /* Compare every recorded output, and the manifest itself. */

@@ -9,6 +9,7 @@
 
 #include "err.h"
 #include "sha256.h"
+#include "stage_pack.h"
 #include "stage_scan.h"
 
 struct kiln_reproduce_opts {
@@ -43,6 +44,7 @@ struct kiln_reproduce_report {
     size_t noutputs;
     struct kiln_reproduce_output out[KILN_REPRO_MAX_OUTPUTS];
     bool all_identical;
+    struct kiln_debris debris; /* interrupted runs' temporary files removed from outdir */
 };
 
 /* Returns KILN_OK when the rebuild ran (see rep->all_identical), KILN_EMISMATCH when recorded

@@ -1,6 +1,7 @@
 /* Temporary-name-then-rename output files. */
 #include "outfile.h"
 
+#include <ctype.h>
 #include <errno.h>
 #include <fcntl.h>
 #include <stdatomic.h>
@@ -55,6 +56,31 @@ int kiln_outfile_open(struct kiln_outfile *of, const char *final_path, struct ki
         return KILN_EIO;
     }
     return KILN_OK;
+}
+
+static const char *digits(const char *s)
+{
+    if (!isdigit((unsigned char)*s))
+        return NULL;
+    while (isdigit((unsigned char)*s))
+        s++;
+    return s;
+}
+
+bool kiln_outfile_is_temp_name(const char *name, const char *base, long *pid)
+{
+    const size_t bl = strlen(base);
+    if (name[0] != '.' || strncmp(name + 1, base, bl) != 0 ||
+        strncmp(name + 1 + bl, ".tmp-", 5) != 0)
+        return false;
+    const char *p = name + 1 + bl + 5, *end = digits(p);
+    if (!end || *end != '-' || end - p > 9) /* a pid_t fits in 9 digits */
+        return false;
+    const char *n = digits(end + 1);
+    if (!n || *n)
+        return false;
+    *pid = strtol(p, NULL, 10);
+    return *pid > 0;
 }
 
 FILE *kiln_outfile_stream(struct kiln_outfile *of, struct kiln_err *err)

@@ -3,6 +3,7 @@
 #ifndef KILN_OUTFILE_H
 #define KILN_OUTFILE_H
 
+#include <stdbool.h>
 #include <stdio.h>
 
 #include "../core/err.h"
@@ -16,6 +17,9 @@ struct kiln_outfile {
 
 /* Creates "<dir>/.<name>.tmp-<pid>-<n>" next to final_path. */
 int kiln_outfile_open(struct kiln_outfile *of, const char *final_path, struct kiln_err *err);
+/* Whether name (no folder) is a temporary name kiln_outfile_open makes for the final name
+ * base; sets *pid to the process that made it. */
+bool kiln_outfile_is_temp_name(const char *name, const char *base, long *pid);
 /* Gives a stdio stream on the file (owned by of). */
 FILE *kiln_outfile_stream(struct kiln_outfile *of, struct kiln_err *err);
 /* Flushes, fsyncs, closes and renames into place, then fsyncs the folder. Checks every step;

@@ -91,11 +91,43 @@ static void test_file_sha256_failures(void **state)
     assert_int_equal(fault_evp_live, 0);
 }
 
+/* The names kiln_outfile_open makes are recognised as kiln's, with the writer's pid; anything
+ * else -- another base name, a missing or non-numeric part, extra characters -- is not. */
+static void test_temp_names(void **state)
+{
+    (void)state;
+    char p[128];
+    snprintf(p, sizeof p, "%s/train.kten", tmpdir);
+    struct kiln_outfile of;
+    struct kiln_err err = {0};
+    assert_int_equal(kiln_outfile_open(&of, p, &err), KILN_OK);
+    const char *base = strrchr(of.tmp_path, '/') + 1;
+    long pid = 0;
+    assert_true(kiln_outfile_is_temp_name(base, "train.kten", &pid));
+    assert_int_equal(pid, (long)getpid());
+    assert_false(kiln_outfile_is_temp_name(base, "val.kten", &pid));
+    assert_false(kiln_outfile_is_temp_name(base, "train", &pid));
+    kiln_outfile_abort(&of);
+    assert_int_equal(access(p, F_OK), -1);
+
+    assert_true(kiln_outfile_is_temp_name(".items.csv.tmp-77-0", "items.csv", &pid));
+    assert_int_equal(pid, 77);
+    static const char *const not_ours[] = {
+        "items.csv.tmp-77-0",   ".items.csv.tmp-77-",    ".items.csv.tmp--77-0",
+        ".items.csv.tmp-+7-0",  ".items.csv.tmp-77-0x",  ".items.csv.tmp-x-0",
+        ".items.csv.tmp-77",    ".items.csv.tmp-0-0",    ".items.csv.tmp- 77-0",
+        ".items.csv.tmp-1234567890-1", ".items.csvX.tmp-77-0", ".items.csv.tmp-77-0/x",
+    };
+    for (size_t i = 0; i < sizeof not_ours / sizeof not_ours[0]; i++)
+        assert_false(kiln_outfile_is_temp_name(not_ours[i], "items.csv", &pid));
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test_setup_teardown(test_file_sha256, setup, teardown),
         cmocka_unit_test_setup_teardown(test_file_sha256_failures, setup, teardown),
+        cmocka_unit_test_setup_teardown(test_temp_names, setup, teardown),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
