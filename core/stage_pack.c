@@ -26,6 +26,7 @@
 #include "../formats/source.h"
 #include "audit.h"
 #include "checked.h"
+#include "names.h"
 #include "record_pool.h"
 #include "stage_record.h"
 #include "prepare.h"
@@ -676,53 +677,6 @@ static json_t *classes_json(const struct kiln_catalog *cat)
     return a;
 }
 
-/* Replaces every name that could identify a person or specimen by its keyed hash. Called after
- * all bytes were read, so reading still used the real names. */
-static int hash_names(struct kiln_catalog *cat, const struct kiln_pack_opts *o, json_t *scan,
-                      struct kiln_err *err)
-{
-    static const char public_key[] = "kiln-paths-v1";
-    const uint8_t *key = o->path_key ? o->path_key : (const uint8_t *)public_key;
-    size_t keylen = o->path_key ? o->path_key_len : sizeof public_key - 1;
-    for (size_t i = 0; i < cat->n; i++) {
-        struct kiln_item *it = &cat->items[i];
-        if (!it->from_source) {
-            it->from_source = it->source;
-            it->from_path = it->path;
-            it->from_member = it->member;
-        }
-        const char **names[] = {&it->source, &it->path, &it->member, &it->group};
-        for (size_t k = 0; k < sizeof names / sizeof names[0]; k++) {
-            if (!(*names[k])[0])
-                continue; /* empty stays empty: "no member", "no group" */
-            uint8_t mac[KILN_SHA256_LEN];
-            char hex[KILN_SHA256_HEX], out[36];
-            int rc = kiln_hmac_sha256(key, keylen, *names[k], strlen(*names[k]), mac, err);
-            if (rc)
-                return rc;
-            kiln_sha256_hex(mac, hex);
-            snprintf(out, sizeof out, "h:%.32s", hex);
-            *names[k] = kiln_arena_strdup(&cat->strings, out);
-            if (!*names[k])
-                return kiln_err_set(err, KILN_ENOMEM, "out of memory");
-        }
-    }
-    if (scan) {
-        json_t *src = json_array();
-        size_t i;
-        json_t *v;
-        json_array_foreach(json_object_get(scan, "sources"), i, v)
-        {
-            (void)v;
-            json_array_append_new(src, json_string("h:(hidden by --hash-paths)"));
-        }
-        json_object_set_new(scan, "sources", src);
-        if (json_is_string(json_object_get(scan, "labels_csv")))
-            json_object_set_new(scan, "labels_csv", json_string("h:(hidden by --hash-paths)"));
-    }
-    return KILN_OK;
-}
-
 static int write_items_csv(struct pack_run *run, const char *path, struct kiln_err *err)
 {
     struct kiln_outfile of;
@@ -1195,12 +1149,16 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         kiln_outfile_abort(&run.pool); /* the pool is scratch: never renamed into place */
         run.pool_fd = -1;
     }
-    json_t *scan_copy = NULL;
-    if (!rc && o->recipe.hash_paths && !o->names_hashed) {
-        const json_t *sr = json_object_get(o->catalog_record, "scan");
-        scan_copy = sr ? json_deep_copy(sr) : NULL;
-        rc = hash_names(cat, o, scan_copy, err);
-    }
+    /* The one place names reach the outputs below: the catalogue's names and the records'
+     * strings in their output form (hashed with --hash-paths). Nothing after this point reads
+     * o->catalog_record or a name kept elsewhere. The bytes were all read before. */
+    struct kiln_names namer;
+    kiln_names_init(&namer, r->hash_paths, o->path_key, o->path_key_len);
+    json_t *record = NULL;
+    if (!rc)
+        rc = kiln_names_catalog(&namer, cat, err);
+    if (!rc && !(record = kiln_record_public(o->catalog_record, &namer, err)))
+        rc = err->code ? err->code : KILN_ENOMEM;
     char *items_path = out_path(o->outdir, "items.csv");
     char *cat_path = out_path(o->outdir, "catalog.csv");
     if (!rc && (!items_path || !cat_path))
@@ -1234,11 +1192,9 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         json_object_set_new(manifest, "libraries", kiln_library_versions_json());
         json_object_set_new(manifest, "recipe", json_incref(recipe));
         json_object_set_new(manifest, "recipe_sha256", json_string(recipe_sha));
-        const json_t *rec = o->catalog_record;
-        json_t *scan_rec = scan_copy ? scan_copy : json_object_get(rec, "scan");
-        json_t *split_rec = json_object_get(rec, "split");
-        json_object_set_new(manifest, "scan", scan_rec ? json_incref(scan_rec) : json_null());
-        json_object_set_new(manifest, "split", split_rec ? json_incref(split_rec) : json_null());
+        json_t *split_rec = json_object_get(record, "split");
+        json_object_set_new(manifest, "scan", json_incref(json_object_get(record, "scan")));
+        json_object_set_new(manifest, "split", json_incref(split_rec));
         json_object_set_new(manifest, "classes", classes_json(cat));
         json_t *counts = json_object();
         for (int s = 0; s < KILN_NSPLITS; s++) {
@@ -1291,7 +1247,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     }
     if (rc)
         abort_outputs(&run);
-    json_decref(scan_copy);
+    json_decref(record);
     json_decref(manifest);
     json_decref(recipe);
     json_decref(stats_all);

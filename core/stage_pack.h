@@ -20,10 +20,9 @@ struct kiln_pack_opts {
     unsigned jobs;
     size_t queue_bytes;
     const json_t *catalog_record; /* catalog.json (scan and split record) or NULL */
-    /* With recipe.hash_paths, source, path, member and group are written as "h:" + 32 hex
-     * digits of HMAC-SHA256(path_key, name) in every output (docs/formats.md), unless the
-     * catalogue's names are hashed already (names_hashed: reproduce of such an output). */
-    bool names_hashed;
+    /* With recipe.hash_paths, every name reaches the outputs as "h:" + 32 hex digits of
+     * HMAC-SHA256(path_key, name) (core/names.h, docs/formats.md); names hashed already (a
+     * reproduced hashed output) stay as they are. */
     const uint8_t *path_key; /* NULL: the public key "kiln-paths-v1" (docs: weaker) */
     size_t path_key_len;
     kiln_progress_fn progress;

@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "audit.h"
+#include "names.h"
 #include "stage_scan.h"
 #include "textesc.h"
 #include "version.h"
@@ -126,6 +127,81 @@ int kiln_split_params_from_record(const json_t *split, struct kiln_split_params 
     const json_t *near = json_object_get(split, "merge_near_duplicates");
     p->near_bits = json_is_integer(near) ? (int)json_integer_value(near) : -1;
     return KILN_OK;
+}
+
+/* String fields of the scan and split records that never hold a name. */
+static const char *const name_free[] = {"kiln_version", "labels",          "algorithm",
+                                        "seed",         "ratios",          "mode",
+                                        "conflicts",    "manifest_sha256"};
+
+static bool is_name_free(const char *key)
+{
+    for (size_t i = 0; i < sizeof name_free / sizeof name_free[0]; i++)
+        if (strcmp(key, name_free[i]) == 0)
+            return true;
+    return false;
+}
+
+/* Copies v; strings go through the names unless key says they cannot hold one. */
+static json_t *public_value(const json_t *v, const char *key, const struct kiln_names *n,
+                            struct kiln_err *err)
+{
+    if (json_is_string(v)) {
+        if (key && is_name_free(key))
+            return json_incref((json_t *)v);
+        char buf[KILN_NAME_HASH_LEN];
+        const char *out;
+        return kiln_names_out(n, json_string_value(v), buf, &out, err) ? NULL : json_string(out);
+    }
+    if (json_is_array(v)) {
+        json_t *a = json_array();
+        size_t i;
+        const json_t *e;
+        json_array_foreach(v, i, e)
+        {
+            json_t *c = public_value(e, key, n, err);
+            if (!c || json_array_append_new(a, c)) {
+                json_decref(a);
+                return NULL;
+            }
+        }
+        return a;
+    }
+    if (json_is_object(v)) {
+        json_t *o = json_object();
+        const char *k;
+        const json_t *e;
+        json_object_foreach((json_t *)v, k, e)
+        {
+            json_t *c = public_value(e, k, n, err);
+            if (!c || json_object_set_new(o, k, c)) {
+                json_decref(o);
+                return NULL;
+            }
+        }
+        return o;
+    }
+    return json_deep_copy(v); /* numbers, booleans, null */
+}
+
+json_t *kiln_record_public(const json_t *record, const struct kiln_names *n, struct kiln_err *err)
+{
+    kiln_err_clear(err);
+    json_t *out = json_object();
+    static const char *const parts[] = {"scan", "split"};
+    for (size_t i = 0; out && i < 2; i++) {
+        const json_t *part = json_object_get(record, parts[i]);
+        json_t *copy = part ? public_value(part, NULL, n, err) : json_null();
+        if (!copy) {
+            json_decref(out);
+            if (err->code == KILN_OK) /* jansson could not allocate */
+                kiln_err_set(err, KILN_ENOMEM, "cannot copy the %s record", parts[i]);
+            return NULL;
+        }
+        json_object_del(copy, "audit");
+        json_object_set_new(out, parts[i], copy);
+    }
+    return out;
 }
 
 #define AUDIT_LISTED 100

@@ -18,6 +18,14 @@ json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_u
 int kiln_split_params_from_record(const json_t *split, struct kiln_split_params *p,
                                   struct kiln_err *err);
 
+/* The scan and split records of catalog.json as an output may show them: a copy in which every
+ * string value is passed through kiln_names_out unless its key is known to hold no name (rule
+ * names, versions, digests, the seed and ratios); names therefore come out hashed with
+ * --hash-paths, including those of fields added later. The split record's audit is left out:
+ * pack audits what it packed and records that (manifest.json "audit"). NULL on failure. */
+struct kiln_names;
+json_t *kiln_record_public(const json_t *record, const struct kiln_names *n, struct kiln_err *err);
+
 /* The audit result for manifest.json and catalog.json: counts per kind, the classes missing
  * from a split, and the findings (at most 100, each with its items' names and splits). */
 struct kiln_audit;

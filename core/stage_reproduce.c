@@ -244,7 +244,6 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     json_object_set(record, "scan", json_object_get(m, "scan"));
     json_object_set(record, "split", split);
     po.outdir = o->outdir;
-    po.names_hashed = po.recipe.hash_paths;
     po.jobs = o->jobs;
     po.catalog_record = record;
     po.progress = o->progress;
