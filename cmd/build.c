@@ -52,6 +52,7 @@ int cmd_build(int argc, char **argv)
     struct kiln_err err;
     kiln_err_clear(&err);
     bool quiet = false, seeded = false;
+    uint8_t *key = NULL;
     unsigned jobs = cli_default_jobs();
     int c, idx;
     while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
@@ -63,13 +64,12 @@ int cmd_build(int argc, char **argv)
             break;
         case 'q': quiet = true; break;
         case 'K': {
-            uint8_t *key;
-            size_t len;
-            if (cli_read_path_key(optarg, &key, &len))
-                return KILN_EXIT_USAGE;
-            free((void *)po.path_key);
+            int code = cli_read_path_key(optarg, &key, &po.path_key_len);
+            if (code) {
+                free(key);
+                return code;
+            }
             po.path_key = key;
-            po.path_key_len = len;
             break;
         }
         case 'h': help(); return KILN_EXIT_OK;

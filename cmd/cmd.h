@@ -78,7 +78,9 @@ int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg);
 char **cli_sources_new(int n, char **argv);
 void cli_sources_free(char **sources, int n);
 
-/* Reads a --path-key file (at most 1 MiB, not empty); prints the error and returns -1. */
+/* Reads a --path-key file (at most 1 MiB, not empty) into *key (freeing what *key held; NULL
+ * at first). Returns 0, or prints why not and returns the exit status (3: the file cannot be
+ * read, is empty or too large). */
 int cli_read_path_key(const char *file, uint8_t **key, size_t *len);
 
 /* Split parameters with their defaults (80:10:10, exact, no near-duplicate merging). */

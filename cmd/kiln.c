@@ -399,12 +399,22 @@ void cli_sources_free(char **sources, int n)
 
 int cli_read_path_key(const char *file, uint8_t **key, size_t *len)
 {
+    free(*key);
+    *key = NULL;
+    *len = 0;
     struct kiln_err e;
-    if (kiln_source_read_file(file, 1u << 20, key, len, &e) != 0 || *len == 0) {
-        cli_error("cannot use %s as a path key: %s", file, *len ? e.msg : "empty file");
-        return -1;
-    }
-    return 0;
+    int rc = kiln_source_read_file(file, 1u << 20, key, len, &e);
+    if (rc == KILN_ETOOLARGE)
+        cli_error("cannot use %s as a path key: it is larger than 1 MiB", file);
+    else if (rc)
+        cli_error("cannot read the path key %s: %s", file, e.msg);
+    else if (*len == 0)
+        cli_error("cannot use %s as a path key: the file is empty", file);
+    if (!rc && *len)
+        return KILN_EXIT_OK;
+    free(*key);
+    *key = NULL;
+    return rc == KILN_ENOMEM ? KILN_EXIT_FAILURE : KILN_EXIT_INPUT;
 }
 
 void cli_split_defaults(struct kiln_split_params *p)

@@ -44,6 +44,7 @@ int cmd_pack(int argc, char **argv)
     kiln_recipe_defaults(&o.recipe);
     o.jobs = cli_default_jobs();
     bool quiet = false;
+    uint8_t *key = NULL;
     int c, idx;
     while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
         switch (c) {
@@ -54,13 +55,12 @@ int cmd_pack(int argc, char **argv)
             break;
         case 'q': quiet = true; break;
         case 'K': {
-            uint8_t *key;
-            size_t len;
-            if (cli_read_path_key(optarg, &key, &len))
-                return KILN_EXIT_USAGE;
-            free((void *)o.path_key);
+            int code = cli_read_path_key(optarg, &key, &o.path_key_len);
+            if (code) {
+                free(key);
+                return code;
+            }
             o.path_key = key;
-            o.path_key_len = len;
             break;
         }
         case 'h': help(); return KILN_EXIT_OK;

@@ -21,6 +21,8 @@ static void help(void)
            "  -s, --source DIR     a folder or archive to search (repeatable, required)\n"
            "  -o, --output DIR     where to rebuild (required; empty or an earlier output)\n"
            "  --allow-missing      rebuild without the items that cannot be found\n"
+           "  --path-key FILE      the key of a --hash-paths output, to tell items in place\n"
+           "                       from moved ones (not needed with the public key)\n"
            "  -j, --jobs N         worker threads (default: online CPUs)\n"
            "  -q, --quiet          print only problems and the verdict\n"
            "  -h, --help           this text\n");
@@ -46,62 +48,29 @@ static void on_note(void *ctx, int kind, const char *msg)
     }
 }
 
-int cmd_reproduce(int argc, char **argv)
+/* Everything after option parsing; returns the exit status. */
+static int reproduce(struct kiln_reproduce_opts *o, bool quiet)
 {
-    static const struct option longopts[] = {
-        {"source", required_argument, NULL, 's'}, {"output", required_argument, NULL, 'o'},
-        {"allow-missing", no_argument, NULL, 'A'}, {"jobs", required_argument, NULL, 'j'},
-        {"quiet", no_argument, NULL, 'q'},        {"help", no_argument, NULL, 'h'},
-        {NULL, 0, NULL, 0}};
-    struct kiln_reproduce_opts o;
-    memset(&o, 0, sizeof o);
-    o.jobs = cli_default_jobs();
-    const char **sources = calloc((size_t)argc + 1, sizeof *sources);
-    if (!sources) {
-        cli_error("out of memory");
-        return KILN_EXIT_FAILURE;
-    }
-    bool quiet = false;
-    int c;
-    while ((c = getopt_long(argc, argv, "s:o:j:qh", longopts, NULL)) != -1) {
-        switch (c) {
-        case 's': sources[o.nsources++] = optarg; break;
-        case 'o': o.outdir = optarg; break;
-        case 'A': o.allow_missing = true; break;
-        case 'j':
-            if (cli_parse_jobs(optarg, &o.jobs)) {
-                free(sources);
-                return cli_usage_error("reproduce", "bad --jobs '%s'", optarg);
-            }
-            break;
-        case 'q': quiet = true; break;
-        case 'h': free(sources); help(); return KILN_EXIT_OK;
-        default: free(sources); return cli_usage_error("reproduce", "unknown option");
-        }
-    }
-    if (optind + 1 != argc || !o.nsources || !o.outdir) {
-        free(sources);
-        return cli_usage_error("reproduce", "name the old manifest.json, --source and -o");
-    }
-    o.manifest = argv[optind];
-    o.sources = sources;
     struct cli_progress prog;
     cli_progress_start(&prog, "reproduce", quiet);
-    o.progress = cli_progress_update;
-    o.progress_ctx = &prog;
+    o->progress = cli_progress_update;
+    o->progress_ctx = &prog;
     struct notes n = {quiet, 0};
     struct kiln_reproduce_report rep;
     struct kiln_err err;
     kiln_err_clear(&err);
-    int rc = kiln_stage_reproduce(&o, on_note, &n, &rep, &err);
+    int rc = kiln_stage_reproduce(o, on_note, &n, &rep, &err);
     cli_progress_done(&prog);
-    cli_report_debris(o.outdir, &rep.debris);
-    free(sources);
+    cli_report_debris(o->outdir, &rep.debris);
     if (n.moved_shown > 10)
         printf("moved: ... and %zu more\n", n.moved_shown - 10);
+    if (rep.places_unknown)
+        cli_warn("%s hashes names with a key that was not given (--path-key): items found by "
+                 "content cannot be told to be in place or moved",
+                 o->manifest);
     if (rc) {
         cli_error("%s", err.msg);
-        if (rep.missing && !o.allow_missing)
+        if (rep.missing && !o->allow_missing)
             return KILN_EXIT_DRIFT;
         return cli_exit_for_input(rc);
     }
@@ -114,7 +83,7 @@ int cmd_reproduce(int argc, char **argv)
                rep.out[i].identical ? "identical" : "DIFFERENT", rep.out[i].recorded,
                rep.out[i].rebuilt);
     if (rep.all_identical) {
-        printf("every output is byte-identical to the recorded one (%s)\n", o.outdir);
+        printf("every output is byte-identical to the recorded one (%s)\n", o->outdir);
         return KILN_EXIT_OK;
     }
     if (rep.split_differs)
@@ -123,6 +92,58 @@ int cmd_reproduce(int argc, char **argv)
         printf("%zu records are missing, so the record indices after them differ\n", rep.missing);
     if (rep.library_differs)
         printf("decoding libraries differ from the recorded ones (see the warnings above)\n");
-    printf("not every output is identical (rebuilt in %s)\n", o.outdir);
+    printf("not every output is identical (rebuilt in %s)\n", o->outdir);
     return KILN_EXIT_DIFFERS;
+}
+
+int cmd_reproduce(int argc, char **argv)
+{
+    static const struct option longopts[] = {
+        {"source", required_argument, NULL, 's'},  {"output", required_argument, NULL, 'o'},
+        {"allow-missing", no_argument, NULL, 'A'}, {"jobs", required_argument, NULL, 'j'},
+        {"path-key", required_argument, NULL, 'K'}, {"quiet", no_argument, NULL, 'q'},
+        {"help", no_argument, NULL, 'h'},          {NULL, 0, NULL, 0}};
+    struct kiln_reproduce_opts o;
+    memset(&o, 0, sizeof o);
+    o.jobs = cli_default_jobs();
+    const char **sources = calloc((size_t)argc + 1, sizeof *sources);
+    if (!sources) {
+        cli_error("out of memory");
+        return KILN_EXIT_FAILURE;
+    }
+    uint8_t *key = NULL;
+    bool quiet = false;
+    int c, code = -1;
+    while (code < 0 && (c = getopt_long(argc, argv, "s:o:j:qh", longopts, NULL)) != -1) {
+        switch (c) {
+        case 's': sources[o.nsources++] = optarg; break;
+        case 'o': o.outdir = optarg; break;
+        case 'A': o.allow_missing = true; break;
+        case 'j':
+            if (cli_parse_jobs(optarg, &o.jobs))
+                code = cli_usage_error("reproduce", "bad --jobs '%s'", optarg);
+            break;
+        case 'K':
+            if ((code = cli_read_path_key(optarg, &key, &o.path_key_len)) == 0)
+                code = -1; /* read: go on */
+            break;
+        case 'q': quiet = true; break;
+        case 'h':
+            help();
+            code = KILN_EXIT_OK;
+            break;
+        default: code = cli_usage_error("reproduce", "unknown option"); break;
+        }
+    }
+    if (code < 0 && (optind + 1 != argc || !o.nsources || !o.outdir))
+        code = cli_usage_error("reproduce", "name the old manifest.json, --source and -o");
+    if (code < 0) {
+        o.manifest = argv[optind];
+        o.sources = sources;
+        o.path_key = key;
+        code = reproduce(&o, quiet);
+    }
+    free(key);
+    free(sources);
+    return code;
 }

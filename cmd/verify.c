@@ -18,6 +18,8 @@ static void help(void)
            "source file is missing or changed.\n\n"
            "options:\n"
            "  -s, --source DIR     check the sources too (repeatable)\n"
+           "  --path-key FILE      the key of a --hash-paths output, to tell files in place\n"
+           "                       from moved ones (not needed with the public key)\n"
            "  -q, --quiet          print only problems\n"
            "  -h, --help           this text\n");
 }
@@ -32,33 +34,10 @@ static void on_issue(void *ctx, int kind, const char *msg)
     printf("%s: %s\n", kind >= 1 && kind <= 6 ? words[kind] : "?", msg);
 }
 
-int cmd_verify(int argc, char **argv)
+/* Everything after option parsing; returns the exit status. */
+static int verify(const char *dir, const char *const *sources, size_t nsources, const uint8_t *key,
+                  size_t keylen, bool quiet)
 {
-    static const struct option longopts[] = {{"quiet", no_argument, NULL, 'q'},
-                                             {"help", no_argument, NULL, 'h'},
-                                             {"source", required_argument, NULL, 's'},
-                                             {NULL, 0, NULL, 0}};
-    bool quiet = false;
-    int c;
-    const char **sources = calloc((size_t)argc + 1, sizeof *sources);
-    size_t nsources = 0;
-    if (!sources) {
-        cli_error("out of memory");
-        return KILN_EXIT_FAILURE;
-    }
-    while ((c = getopt_long(argc, argv, "s:qh", longopts, NULL)) != -1) {
-        switch (c) {
-        case 's': sources[nsources++] = optarg; break;
-        case 'q': quiet = true; break;
-        case 'h': free(sources); help(); return KILN_EXIT_OK;
-        default: free(sources); return cli_usage_error("verify", "unknown option");
-        }
-    }
-    if (optind + 1 != argc) {
-        free(sources);
-        return cli_usage_error("verify", "name exactly one output folder");
-    }
-    const char *dir = argv[optind];
     struct cli_progress prog;
     cli_progress_start(&prog, "verify", true);
     struct kiln_verify_report rep;
@@ -68,17 +47,19 @@ int cmd_verify(int argc, char **argv)
     if (rc == KILN_EMISMATCH) {
         cli_error("%s: %zu problems (files or arrays differ from their recorded SHA-256)", dir,
                   rep.problems);
-        free(sources);
         return KILN_EXIT_DAMAGED;
     }
     if (rc) {
         cli_error("cannot verify %s: %s", dir, err.msg);
-        free(sources);
         return KILN_EXIT_DAMAGED;
     }
     if (nsources) {
-        rc = kiln_stage_verify_sources(dir, sources, nsources, on_issue, &quiet, &rep, &err);
-        free(sources);
+        rc = kiln_stage_verify_sources(dir, sources, nsources, key, keylen, on_issue, &quiet, &rep,
+                                       &err);
+        if (rep.places_unknown)
+            cli_warn("%s hashes names with a key that was not given (--path-key): files found by "
+                     "content cannot be told to be in place or moved",
+                     dir);
         if (rc == KILN_EMISMATCH) {
             cli_error("%s: %zu source files missing, %zu changed (of %zu recorded)", dir,
                       rep.sources_missing, rep.sources_changed, rep.sources_checked);
@@ -91,12 +72,50 @@ int cmd_verify(int argc, char **argv)
         if (!quiet)
             printf("sources: all %zu recorded files found (%zu moved, %zu extra files)\n",
                    rep.sources_checked, rep.sources_moved, rep.sources_extra);
-    } else {
-        free(sources);
     }
     if (!quiet)
         printf("%s: all %zu files and %zu arrays match (%.1f MB hashed in %.2f s)\n", dir,
                rep.files_checked, rep.arrays_checked, (double)rep.bytes_hashed / 1e6,
                cli_elapsed(&prog));
     return KILN_EXIT_OK;
+}
+
+int cmd_verify(int argc, char **argv)
+{
+    static const struct option longopts[] = {{"quiet", no_argument, NULL, 'q'},
+                                             {"help", no_argument, NULL, 'h'},
+                                             {"source", required_argument, NULL, 's'},
+                                             {"path-key", required_argument, NULL, 'K'},
+                                             {NULL, 0, NULL, 0}};
+    uint8_t *key = NULL;
+    size_t keylen = 0, nsources = 0;
+    bool quiet = false;
+    const char **sources = calloc((size_t)argc + 1, sizeof *sources);
+    if (!sources) {
+        cli_error("out of memory");
+        return KILN_EXIT_FAILURE;
+    }
+    int c, code = -1;
+    while (code < 0 && (c = getopt_long(argc, argv, "s:qh", longopts, NULL)) != -1) {
+        switch (c) {
+        case 's': sources[nsources++] = optarg; break;
+        case 'K':
+            if ((code = cli_read_path_key(optarg, &key, &keylen)) == 0)
+                code = -1; /* read: go on */
+            break;
+        case 'q': quiet = true; break;
+        case 'h':
+            help();
+            code = KILN_EXIT_OK;
+            break;
+        default: code = cli_usage_error("verify", "unknown option"); break;
+        }
+    }
+    if (code < 0 && optind + 1 != argc)
+        code = cli_usage_error("verify", "name exactly one output folder");
+    if (code < 0)
+        code = verify(argv[optind], sources, nsources, key, keylen, quiet);
+    free(key);
+    free(sources);
+    return code;
 }

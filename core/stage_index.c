@@ -5,7 +5,9 @@
 #include <string.h>
 
 #include "../formats/source.h"
+#include "catalog.h"
 #include "checked.h"
+#include "names.h"
 #include "stage_index.h"
 
 struct index_walk {
@@ -82,6 +84,38 @@ void kiln_index_free(struct kiln_index *idx)
     free(idx->e);
     kiln_arena_free(&idx->strings);
     memset(idx, 0, sizeof *idx);
+}
+
+/* Whether the entry's location, in recorded form, is the item's. */
+static int same_place(const struct kiln_index_entry *x, const struct kiln_item *it,
+                      const struct kiln_names *names, bool *same, struct kiln_err *err)
+{
+    char pb[KILN_NAME_HASH_LEN], mb[KILN_NAME_HASH_LEN];
+    const char *p, *m;
+    int rc = kiln_names_out(names, x->path, pb, &p, err);
+    if (!rc)
+        rc = kiln_names_out(names, x->member, mb, &m, err);
+    *same = !rc && strcmp(p, it->path) == 0 && strcmp(m, it->member) == 0;
+    return rc;
+}
+
+int kiln_index_locate(const struct kiln_index *idx, const struct kiln_item *it,
+                      const struct kiln_names *names, const struct kiln_index_entry **hit,
+                      bool *at_place, struct kiln_err *err)
+{
+    *at_place = false;
+    *hit = kiln_index_find(idx, it->sha256);
+    for (const struct kiln_index_entry *x = *hit;
+         x && x < idx->e + idx->n && memcmp(x->sha256, it->sha256, KILN_SHA256_LEN) == 0; x++) {
+        int rc = same_place(x, it, names, at_place, err);
+        if (rc)
+            return rc;
+        if (*at_place) {
+            *hit = x;
+            break;
+        }
+    }
+    return KILN_OK;
 }
 
 const struct kiln_index_entry *kiln_index_find(const struct kiln_index *idx,

@@ -36,4 +36,15 @@ void kiln_index_free(struct kiln_index *idx);
 const struct kiln_index_entry *kiln_index_find(const struct kiln_index *idx,
                                                const uint8_t sha256[KILN_SHA256_LEN]);
 
+/* Where a recorded item is now: among the entries with its digest, the one at its recorded
+ * path and member if there is one (*at_place set), else the first in location order (a copy
+ * elsewhere, or the item moved); *hit NULL when no entry has the digest. Locations are
+ * compared in the form the record holds them: each candidate's names go through
+ * kiln_names_out first (hashed when the output's names are). */
+struct kiln_item;
+struct kiln_names;
+int kiln_index_locate(const struct kiln_index *idx, const struct kiln_item *it,
+                      const struct kiln_names *names, const struct kiln_index_entry **hit,
+                      bool *at_place, struct kiln_err *err);
+
 #endif

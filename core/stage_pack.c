@@ -92,11 +92,13 @@ struct order_key {
 };
 
 /* Records follow the unit key (a seeded hash, so classes are interleaved), then content, so
- * that moving or renaming source files never changes a tensor file. */
+ * that moving or renaming source files never changes a tensor file. Identical files are then
+ * in catalogue order, which scan fixed by location: not the names themselves, which reproduce
+ * of a --hash-paths output only has in hashed form. */
 static int cmp_record(const void *a, const void *b)
 {
-    const struct kiln_item *x = ((const struct order_key *)a)->it,
-                           *y = ((const struct order_key *)b)->it;
+    const struct order_key *p = a, *q = b;
+    const struct kiln_item *x = p->it, *y = q->it;
     if (x->unit_key != y->unit_key)
         return x->unit_key < y->unit_key ? -1 : 1;
     int c = memcmp(x->sha256, y->sha256, KILN_SHA256_LEN);
@@ -104,7 +106,7 @@ static int cmp_record(const void *a, const void *b)
         return c;
     if (x->class_index != y->class_index)
         return x->class_index < y->class_index ? -1 : 1;
-    return kiln_item_location_cmp(x, y);
+    return p->index < q->index ? -1 : p->index > q->index;
 }
 
 static int plan_records(struct pack_run *run, struct kiln_err *err)

@@ -15,6 +15,7 @@
 #include "../formats/manifest.h"
 #include "../formats/outfile.h"
 #include "checked.h"
+#include "names.h"
 #include "split.h"
 #include "stage_index.h"
 #include "stage_pack.h"
@@ -166,6 +167,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     memset(&idx, 0, sizeof idx);
     kiln_arena_init(&idx.strings);
     json_t *record = NULL;
+    uint32_t *moved = NULL; /* items found elsewhere than recorded */
     struct kiln_pack_opts po;
     memset(&po, 0, sizeof po);
     const char *want = recorded_sha(m, "catalog.csv");
@@ -192,14 +194,25 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     compare_libraries(m, fn, ctx, rep);
     kiln_arena_free(&idx.strings);
     rc = kiln_index_build(o->sources, o->nsources, false, &idx, err);
+    if (!rc && !(moved = kiln_alloc_array(cat.n ? cat.n : 1, sizeof *moved)))
+        rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
     if (rc)
         goto out;
+    /* Each item is read from its recorded place when that still holds its content (exact
+     * duplicates elsewhere do not make it "moved"); else from the first copy found. */
+    struct kiln_names names;
+    kiln_names_init(&names, po.recipe.hash_paths, o->path_key, o->path_key_len);
+    size_t in_place = 0;
     for (size_t i = 0; i < cat.n; i++) {
         struct kiln_item *it = &cat.items[i];
         if (it->split == KILN_SPLIT_NONE)
             continue;
         rep->items++;
-        const struct kiln_index_entry *hit = kiln_index_find(&idx, it->sha256);
+        const struct kiln_index_entry *hit;
+        bool at_place;
+        rc = kiln_index_locate(&idx, it, &names, &hit, &at_place, err);
+        if (rc)
+            goto out;
         char rel[4096];
         kiln_item_relname(it->path, it->member, rel, sizeof rel);
         if (!hit) {
@@ -216,12 +229,21 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
         it->from_source = hit->source;
         it->from_path = hit->path;
         it->from_member = hit->member;
-        if (strcmp(hit->path, it->path) != 0 || strcmp(hit->member, it->member) != 0) {
-            rep->moved++;
-            char now[4096];
-            kiln_item_relname(hit->path, hit->member, now, sizeof now);
-            note(fn, ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, hit->source, now);
-        }
+        in_place += at_place;
+        if (!at_place)
+            moved[rep->moved++] = (uint32_t)i;
+    }
+    /* Under the public key nothing in place, names hashed and no key given: the names were
+     * most likely hashed with a secret key, and "moved" would be a guess. */
+    rep->places_unknown = po.recipe.hash_paths && !o->path_key && rep->moved && !in_place;
+    if (rep->places_unknown)
+        rep->moved = 0;
+    for (size_t k = 0; k < rep->moved; k++) {
+        const struct kiln_item *it = &cat.items[moved[k]];
+        char rel[4096], now[4096];
+        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        kiln_item_relname(it->from_path, it->from_member, now, sizeof now);
+        note(fn, ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from_source, now);
     }
     if (rep->missing && !o->allow_missing) {
         rc = kiln_err_set(err, KILN_EMISMATCH,
@@ -266,6 +288,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     if (rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
         compare_output(o->outdir, "manifest.json", NULL, o->manifest, rep);
 out:
+    free(moved);
     json_decref(record);
     kiln_catalog_free(&cat); /* before the index: items point into its strings */
     kiln_index_free(&idx);

@@ -18,6 +18,10 @@ struct kiln_reproduce_opts {
     size_t nsources;
     const char *outdir;
     bool allow_missing; /* rebuild without the items that cannot be found */
+    /* The --path-key of a hashed output, to tell moved items from items in place; NULL: the
+     * public key. Never needed for the rebuild itself. */
+    const uint8_t *path_key;
+    size_t path_key_len;
     unsigned jobs;
     kiln_progress_fn progress;
     void *progress_ctx;
@@ -41,6 +45,9 @@ struct kiln_reproduce_output {
 
 struct kiln_reproduce_report {
     size_t items, found, missing, moved, split_differs, library_differs;
+    /* Names are hashed with a key kiln was not given and no item was at its recorded place
+     * under the public key: whether items moved cannot be told (moved stays 0). */
+    bool places_unknown;
     size_t noutputs;
     struct kiln_reproduce_output out[KILN_REPRO_MAX_OUTPUTS];
     bool all_identical;

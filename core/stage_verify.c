@@ -13,6 +13,7 @@
 #include "../formats/outfile.h"
 #include "../formats/catalog_csv.h"
 #include "checked.h"
+#include "names.h"
 #include "sha256.h"
 #include "stage_index.h"
 #include "stage_scan.h"
@@ -222,8 +223,8 @@ static int cmp_located(const void *a, const void *b)
 }
 
 int kiln_stage_verify_sources(const char *outdir, const char *const *sources, size_t nsources,
-                              kiln_issue_fn fn, void *ctx, struct kiln_verify_report *rep,
-                              struct kiln_err *err)
+                              const uint8_t *path_key, size_t path_key_len, kiln_issue_fn fn,
+                              void *ctx, struct kiln_verify_report *rep, struct kiln_err *err)
 {
     char *cpath = join(outdir, "catalog.csv"), *mpath = join(outdir, "manifest.json");
     if (!cpath || !mpath) {
@@ -253,6 +254,10 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
         if (strcmp(hex, want) != 0)
             rc = kiln_err_set(err, KILN_EMISMATCH, "%s does not match its manifest", cpath);
     }
+    struct kiln_names names;
+    kiln_names_init(&names, json_is_true(json_object_get(json_object_get(m, "recipe"),
+                                                         "hash_paths")),
+                    path_key, path_key_len);
     json_decref(m);
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
@@ -270,16 +275,43 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
     }
     struct located *loc = kiln_alloc_array(idx.n ? idx.n : 1, sizeof *loc);
     uint8_t *used = calloc(idx.n ? idx.n : 1, 1);
-    if (!loc || !used) {
+    /* per recorded item found elsewhere: the item and the index entry of its first copy */
+    struct moved { uint32_t item, entry; } *moved = kiln_alloc_array(cat.n ? cat.n : 1,
+                                                                      sizeof *moved);
+    if (!loc || !used || !moved) {
+        free(moved);
         free(loc);
         free(used);
         kiln_index_free(&idx);
         kiln_catalog_free(&cat);
         return kiln_err_set(err, KILN_ENOMEM, "out of memory");
     }
-    for (size_t k = 0; k < idx.n; k++)
-        loc[k] = (struct located){idx.e[k].path, idx.e[k].member, idx.e[k].sha256, k};
-    qsort(loc, idx.n, sizeof *loc, cmp_located);
+    /* Locations in the form the catalogue records them (hashed names hashed alike). */
+    for (size_t k = 0; k < idx.n && !rc; k++) {
+        char pb[KILN_NAME_HASH_LEN], mb[KILN_NAME_HASH_LEN];
+        const char *p, *mm;
+        rc = kiln_names_out(&names, idx.e[k].path, pb, &p, err);
+        if (!rc)
+            rc = kiln_names_out(&names, idx.e[k].member, mb, &mm, err);
+        if (!rc && p == pb)
+            p = kiln_arena_strdup(&idx.strings, pb);
+        if (!rc && mm == mb)
+            mm = kiln_arena_strdup(&idx.strings, mb);
+        if (!rc && (!p || !mm))
+            rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+        loc[k] = (struct located){p, mm, idx.e[k].sha256, k};
+    }
+    if (rc) {
+        free(moved);
+        free(loc);
+        free(used);
+        kiln_index_free(&idx);
+        kiln_catalog_free(&cat);
+        return rc;
+    }
+    if (idx.n > 1)
+        qsort(loc, idx.n, sizeof *loc, cmp_located);
+    size_t in_place = 0;
     for (size_t k = 0; k < cat.n; k++) {
         const struct kiln_item *it = &cat.items[k];
         if (!it->has_sha)
@@ -295,16 +327,11 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
             for (size_t q = (size_t)(hit - idx.e); q < idx.n &&
                  memcmp(idx.e[q].sha256, it->sha256, KILN_SHA256_LEN) == 0; q++)
                 used[q] = 1;
-            if (!at || memcmp(at->sha, it->sha256, KILN_SHA256_LEN) != 0) {
-                char now[4096];
-                kiln_item_relname(hit->path, hit->member, now, sizeof now);
-                rep->sources_moved++;
-                if (fn) {
-                    char msg[8300];
-                    snprintf(msg, sizeof msg, "%s: found by content as %s/%s", rel, hit->source, now);
-                    fn(ctx, KILN_ISSUE_SOURCE_MOVED, msg);
-                }
-            }
+            if (!at || memcmp(at->sha, it->sha256, KILN_SHA256_LEN) != 0)
+                moved[rep->sources_moved++] = (struct moved){(uint32_t)k,
+                                                             (uint32_t)(hit - idx.e)};
+            else
+                in_place++;
         } else if (at) {
             used[at->q] = 1; /* the changed file is reported once, not also as extra */
             rep->sources_changed++;
@@ -316,6 +343,20 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
                    "%s: no source file has the recorded SHA-256", rel);
         }
     }
+    /* Hashed names, no key given, nothing in place under the public key: the names were
+     * hashed with a secret key, and "moved" would be a guess. */
+    rep->places_unknown = names.hash && !path_key && rep->sources_moved && !in_place;
+    if (rep->places_unknown)
+        rep->sources_moved = 0;
+    for (size_t q = 0; q < rep->sources_moved && fn; q++) {
+        const struct kiln_item *it = &cat.items[moved[q].item];
+        const struct kiln_index_entry *hit = &idx.e[moved[q].entry];
+        char rel[4096], now[4096], msg[8300];
+        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        kiln_item_relname(hit->path, hit->member, now, sizeof now);
+        snprintf(msg, sizeof msg, "%s: found by content as %s/%s", rel, hit->source, now);
+        fn(ctx, KILN_ISSUE_SOURCE_MOVED, msg);
+    }
     for (size_t q = 0; q < idx.n; q++)
         if (!used[q]) {
             rep->sources_extra++;
@@ -326,6 +367,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
                 fn(ctx, KILN_ISSUE_SOURCE_EXTRA, msg);
             }
         }
+    free(moved);
     free(loc);
     free(used);
     kiln_index_free(&idx);

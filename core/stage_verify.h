@@ -3,7 +3,9 @@
 #ifndef KILN_STAGE_VERIFY_H
 #define KILN_STAGE_VERIFY_H
 
+#include <stdbool.h>
 #include <stddef.h>
+#include <stdint.h>
 
 #include "err.h"
 
@@ -24,6 +26,9 @@ struct kiln_verify_report {
     unsigned long long bytes_hashed;
     /* with sources */
     size_t sources_checked, sources_missing, sources_changed, sources_moved, sources_extra;
+    /* Names hashed with a key verify was not given, and nothing at its recorded place under
+     * the public key: moved and changed files cannot be told apart from elsewhere. */
+    bool places_unknown;
 };
 
 /* Returns KILN_OK when every check passed, KILN_EMISMATCH when some did (each reported through
@@ -34,10 +39,12 @@ int kiln_stage_verify(const char *outdir, kiln_issue_fn fn, void *ctx,
 /* Checks the recorded source files of a packed folder (its catalog.csv, itself checked against
  * the manifest) against the given source trees by content: each recorded file must be found
  * by its SHA-256; a recorded location whose file has other content is "changed". Moved and
- * extra files are reported too but are not problems. Returns KILN_OK, KILN_EMISMATCH when a
- * file is missing or changed, or another code when the check cannot run. */
+ * extra files are reported too but are not problems. Locations are compared in the recorded
+ * form, so with hashed names (--hash-paths) the source files' names are hashed with path_key
+ * (NULL: the public key) first. Returns KILN_OK, KILN_EMISMATCH when a file is missing or
+ * changed, or another code when the check cannot run. */
 int kiln_stage_verify_sources(const char *outdir, const char *const *sources, size_t nsources,
-                              kiln_issue_fn fn, void *ctx, struct kiln_verify_report *rep,
-                              struct kiln_err *err);
+                              const uint8_t *path_key, size_t path_key_len, kiln_issue_fn fn,
+                              void *ctx, struct kiln_verify_report *rep, struct kiln_err *err);
 
 #endif
