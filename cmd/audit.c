@@ -22,7 +22,7 @@ static void help(void)
            "  --near BITS          near-duplicate radius in bits of the difference hash\n"
            "                       (default 6, 0 to 16)\n"
            "  --no-near            check groups and identical content only\n"
-           "  -q, --quiet          print only findings\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n");
 }
 
@@ -34,20 +34,21 @@ int cmd_audit(int argc, char **argv)
         {NULL, 0, NULL, 0}};
     int near = 6, c;
     bool quiet = false;
-    while ((c = getopt_long(argc, argv, "qh", longopts, NULL)) != -1) {
+    while ((c = cli_getopt("audit", argc, argv, "qh", longopts, NULL)) != -1) {
         switch (c) {
         case 'n': {
             char *end;
             long v = strtol(optarg, &end, 10);
             if (!*optarg || *end || v < 0 || v > 16)
-                return cli_usage_error("audit", "bad --near '%s': 0 to 16 bits", optarg);
+                return cli_usage_error("audit", "bad --near '%s': use a number of bits from 0 to 16",
+                                       optarg);
             near = (int)v;
             break;
         }
         case 'N': near = -1; break;
         case 'q': quiet = true; break;
         case 'h': help(); return KILN_EXIT_OK;
-        default: return cli_usage_error("audit", "unknown option");
+        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
         }
     }
     if (optind + 1 != argc)

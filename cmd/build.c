@@ -16,7 +16,7 @@ static void help(void)
            "scan options:\n%s\nsplit options:\n%s\npack options:\n%s\n"
            "  -o, --output DIR     output folder (created; must be empty or a kiln output)\n"
            "  -j, --jobs N         worker threads (default: online CPUs)\n"
-           "  -q, --quiet          no progress or summary\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n",
            cli_scan_help, cli_split_help, cli_recipe_help);
 }
@@ -54,25 +54,24 @@ int cmd_build(int argc, char **argv)
     bool quiet = false, seeded = false;
     uint8_t *key = NULL;
     unsigned jobs = cli_default_jobs();
-    int c, idx;
-    while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
+    int c, idx, code = -1;
+    while (code < 0 && (c = cli_getopt("build", argc, argv, "o:j:qh", longopts, &idx)) != -1) {
         switch (c) {
         case 'o': po.outdir = optarg; break;
         case 'j':
             if (cli_parse_jobs(optarg, &jobs))
-                return cli_usage_error("build", "bad --jobs '%s'", optarg);
+                code = cli_usage_error("build", "bad --jobs '%s': use 1 to 1024", optarg);
             break;
         case 'q': quiet = true; break;
-        case 'K': {
-            int code = cli_read_path_key(optarg, &key, &po.path_key_len);
-            if (code) {
-                free(key);
-                return code;
-            }
+        case 'K':
+            if ((code = cli_read_path_key(optarg, &key, &po.path_key_len)) == 0)
+                code = -1; /* read: go on */
             po.path_key = key;
             break;
-        }
-        case 'h': help(); return KILN_EXIT_OK;
+        case 'h':
+            help();
+            code = KILN_EXIT_OK;
+            break;
         case 0: {
             const char *name = longopts[idx].name;
             int r = cli_scan_option(&so, name, optarg);
@@ -81,24 +80,28 @@ int cmd_build(int argc, char **argv)
             if (r == 0)
                 r = cli_recipe_option(&po.recipe, name, optarg);
             if (r < 0)
-                return KILN_EXIT_USAGE;
+                code = KILN_EXIT_USAGE;
             seeded |= strcmp(name, "seed") == 0;
             /* The pixel limits are shared by scan and pack. */
-            if (strcmp(name, "max-pixels") == 0 || strcmp(name, "max-side") == 0)
+            if (r > 0 && (strcmp(name, "max-pixels") == 0 || strcmp(name, "max-side") == 0))
                 cli_recipe_option(&po.recipe, name, optarg);
             break;
         }
-        default: return cli_usage_error("build", "unknown option");
+        default: code = KILN_EXIT_USAGE; break; /* CLI_OPT_ERROR, reported */
         }
     }
-    if (!po.outdir)
-        return cli_usage_error("build", "-o OUTDIR is required");
-    if (!seeded)
-        return cli_usage_error("build", "--seed N is required, so the split can be rebuilt");
-    if (optind >= argc)
-        return cli_usage_error("build", "name at least one source folder or archive");
-    if (kiln_recipe_finish(&po.recipe, &err))
-        return cli_usage_error("build", "%s", err.msg);
+    if (code < 0 && !po.outdir)
+        code = cli_usage_error("build", "-o OUTDIR is required");
+    if (code < 0 && !seeded)
+        code = cli_usage_error("build", "--seed N is required, so the split can be rebuilt");
+    if (code < 0 && optind >= argc)
+        code = cli_usage_error("build", "name at least one source folder or archive");
+    if (code < 0 && kiln_recipe_finish(&po.recipe, &err))
+        code = cli_usage_error("build", "%s", err.msg);
+    if (code >= 0) {
+        free(key);
+        return code;
+    }
     so.jobs = po.jobs = jobs;
     int nsrc = argc - optind;
     char **sources = cli_sources_new(nsrc, argv + optind);
@@ -152,8 +155,9 @@ int cmd_build(int argc, char **argv)
         struct kiln_pack_report prep;
         rc = kiln_stage_pack(&cat, &po, &prep, &err);
         cli_progress_done(&prog);
-        if (!rc && !quiet)
-            cli_print_pack_summary(stdout, po.outdir, &po.recipe, &prep, cli_elapsed(&prog));
+        if (!rc)
+            cli_print_pack_summary(stdout, po.outdir, &po.recipe, &prep, cli_elapsed(&prog),
+                                   quiet);
     }
     if (rc > 0) {
         cli_error("%s", err.msg);

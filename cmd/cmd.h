@@ -3,8 +3,11 @@
  *
  * Adding a subcommand:
  *   1. Write cmd/<name>.c with int cmd_<name>(int argc, char **argv); argv[0] is the name.
- *   2. Parse options with getopt_long; every subcommand takes --help, --quiet and, when it
- *      does parallel work, --jobs N. Share option parsing through the cli_* helpers below.
+ *   2. Parse options with cli_getopt (getopt_long with kiln's messages); every subcommand
+ *      takes --help, --quiet (docs/cli.md: the same rule everywhere) and, when it does
+ *      parallel work, --jobs N. A bad option value is a usage error (exit 2); a file named by
+ *      an option that cannot be read is bad input (exit 3). Share option parsing through the
+ *      cli_* helpers below.
  *   3. Call core/ and formats/ only through their headers; print messages with cli_error or
  *      cli_warn and return one of the KILN_EXIT_* codes (docs/cli.md lists them).
  *   4. Add the command to the table in cmd/kiln.c, to CMakeLists.txt, and to docs/cli.md.
@@ -41,6 +44,22 @@ int cmd_verify(int argc, char **argv);
 int cmd_inspect(int argc, char **argv);
 int cmd_audit(int argc, char **argv);
 int cmd_reproduce(int argc, char **argv);
+
+/* The command being run ("scan", ...), for messages; set by main before dispatching. */
+extern const char *cli_command;
+
+/* getopt_long with kiln's messages (cmd/options.c): returns what getopt_long returns, or
+ * CLI_OPT_ERROR after printing a usage error that names the option and what is wrong with it:
+ * unknown, ambiguous abbreviation, missing value, value given to a switch, or an optional value
+ * written after a space instead of '=' (docs/cli.md, "Options"). */
+#define CLI_OPT_ERROR (-2)
+struct option;
+int cli_getopt(const char *cmd, int argc, char **argv, const char *shortopts,
+               const struct option *longopts, int *longindex);
+
+/* Checks before any work that an output file can be created: its folder exists, is a folder
+ * and is writable. Prints the error naming path and returns its exit status, or returns 0. */
+int cli_check_output_file(const char *path);
 
 /* "kiln: error: <msg>" / "kiln: warning: <msg>" on stderr. */
 void cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
@@ -107,10 +126,11 @@ void cli_print_split_summary(FILE *f, const struct kiln_catalog *cat,
                              const struct kiln_units *units, const struct kiln_split_params *p,
                              const struct kiln_split_report *rep, bool quiet);
 
-/* Prints what pack wrote: records per split, training statistics, where the outputs are. */
+/* Prints what pack wrote (records per split, training statistics, where the outputs are) on f
+ * unless quiet, and the audit's warnings on stderr always. */
 struct kiln_pack_report;
 void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recipe *r,
-                            const struct kiln_pack_report *rep, double seconds);
+                            const struct kiln_pack_report *rep, double seconds, bool quiet);
 
 /* Prints audit findings (each with its items and splits; at most limit findings and limit items
  * a finding, then a line pointing at `kiln audit RERUN` for the rest). */

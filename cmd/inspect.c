@@ -3,6 +3,7 @@
 #include <inttypes.h>
 #include <jansson.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "../formats/kten.h"
 #include "../formats/manifest.h"
@@ -15,6 +16,7 @@ static void help(void)
            "the class map and the statistics stored in the metadata block.\n\n"
            "options:\n"
            "  --json               print the metadata block as JSON instead\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n");
 }
 
@@ -48,15 +50,18 @@ static void print_stats(const json_t *st, const char *title)
 
 int cmd_inspect(int argc, char **argv)
 {
-    static const struct option longopts[] = {
-        {"json", no_argument, NULL, 'J'}, {"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0}};
-    bool as_json = false;
+    static const struct option longopts[] = {{"json", no_argument, NULL, 'J'},
+                                             {"quiet", no_argument, NULL, 'q'},
+                                             {"help", no_argument, NULL, 'h'},
+                                             {NULL, 0, NULL, 0}};
+    bool as_json = false, quiet = false;
     int c;
-    while ((c = getopt_long(argc, argv, "h", longopts, NULL)) != -1) {
+    while ((c = cli_getopt("inspect", argc, argv, "qh", longopts, NULL)) != -1) {
         switch (c) {
         case 'J': as_json = true; break;
+        case 'q': quiet = true; break;
         case 'h': help(); return KILN_EXIT_OK;
-        default: return cli_usage_error("inspect", "unknown option");
+        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
         }
     }
     if (optind + 1 != argc)
@@ -66,12 +71,20 @@ int cmd_inspect(int argc, char **argv)
     struct kiln_err err;
     int rc = kiln_kten_open(path, &info, &err);
     if (rc) {
-        cli_error("%s", err.msg);
-        return KILN_EXIT_INPUT;
+        struct stat st;
+        if (stat(path, &st) == 0 && S_ISDIR(st.st_mode))
+            cli_error("%s (name one of its files, e.g. %s/train.kten)", err.msg, path);
+        else
+            cli_error("%s", err.msg);
+        return cli_exit_for_input(rc);
     }
     json_error_t je;
     json_t *meta = json_loads(info.metadata, 0, &je);
-    if (as_json) {
+    if (!meta)
+        cli_warn("%s: the metadata block is not valid JSON: %s", path, je.text);
+    if (quiet) {
+        /* nothing to print: the file opened and its header is sound */
+    } else if (as_json) {
         fputs(info.metadata, stdout);
         fputc('\n', stdout);
     } else {
@@ -93,9 +106,7 @@ int cmd_inspect(int argc, char **argv)
         kiln_sha256_hex(info.meta_sha256, hex);
         printf("metadata: %" PRIu64 " bytes at %" PRIu64 ", sha256 %s\n", info.meta_length,
                info.meta_offset, hex);
-        if (!meta) {
-            cli_warn("metadata block is not valid JSON: %s", je.text);
-        } else {
+        if (meta) {
             printf("split %s, layout %s, dtype %s, recipe %s\n",
                    kiln_json_str(meta, "split") ? kiln_json_str(meta, "split") : "?",
                    kiln_json_str(meta, "layout") ? kiln_json_str(meta, "layout") : "?",

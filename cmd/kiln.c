@@ -2,9 +2,11 @@
  * shares (messages, exit codes, progress, option groups). */
 #include <errno.h>
 #include <getopt.h>
+#include <regex.h>
 #include <stdarg.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include "../core/recipe.h"
@@ -34,6 +36,8 @@ static const struct {
 };
 
 #define NCOMMANDS (sizeof commands / sizeof commands[0])
+
+const char *cli_command = "kiln";
 
 static void usage(FILE *f)
 {
@@ -67,6 +71,7 @@ int main(int argc, char **argv)
     }
     for (size_t i = 0; i < NCOMMANDS; i++)
         if (strcmp(argv[1], commands[i].name) == 0) {
+            cli_command = commands[i].name;
             int rc = commands[i].fn(argc - 1, argv + 1);
             /* A full disk must not end in a silent success. */
             if (fflush(stdout) != 0 || ferror(stdout)) {
@@ -111,6 +116,38 @@ int cli_usage_error(const char *cmd, const char *fmt, ...)
     fprintf(stderr, "\n(see 'kiln %s --help')\n", cmd);
     va_end(ap);
     return KILN_EXIT_USAGE;
+}
+
+int cli_check_output_file(const char *path)
+{
+    const char *slash = strrchr(path, '/');
+    char dir[4096];
+    if (!slash)
+        snprintf(dir, sizeof dir, ".");
+    else
+        snprintf(dir, sizeof dir, "%.*s", slash == path ? 1 : (int)(slash - path), path);
+    struct stat st;
+    if (!path[0] || (slash && !slash[1])) {
+        cli_usage_error(cli_command, "'%s' names a folder; name the file to write", path);
+        return KILN_EXIT_USAGE;
+    }
+    if (stat(dir, &st) != 0) {
+        cli_error("cannot write %s: the folder %s does not exist", path, dir);
+        return KILN_EXIT_FAILURE;
+    }
+    if (!S_ISDIR(st.st_mode)) {
+        cli_error("cannot write %s: %s is not a folder", path, dir);
+        return KILN_EXIT_FAILURE;
+    }
+    if (access(dir, W_OK | X_OK) != 0) {
+        cli_error("cannot write %s: %s", path, strerror(errno));
+        return KILN_EXIT_FAILURE;
+    }
+    if (stat(path, &st) == 0 && S_ISDIR(st.st_mode)) {
+        cli_usage_error(cli_command, "'%s' is a folder; name the file to write", path);
+        return KILN_EXIT_USAGE;
+    }
+    return KILN_EXIT_OK;
 }
 
 int cli_exit_for(int code)
@@ -253,12 +290,30 @@ int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg)
             o->labels = KILN_LABELS_CSV;
             o->labels_csv = arg + 4;
         } else {
-            cli_error("bad --labels '%s': use folder, none or csv:FILE", arg);
+            cli_usage_error(cli_command, "bad --labels '%s': use folder, none or csv:FILE", arg);
             return -1;
         }
         return 1;
     }
     if (strcmp(name, "group-regex") == 0) {
+        /* Compiled here once to check it, so a typo is a bad option value before any work. */
+        regex_t re;
+        int rc = regcomp(&re, arg, REG_EXTENDED);
+        if (rc) {
+            char why[256];
+            regerror(rc, &re, why, sizeof why);
+            cli_usage_error(cli_command, "bad --group-regex '%s': %s", arg, why);
+            return -1;
+        }
+        const size_t groups = re.re_nsub;
+        regfree(&re);
+        if (groups < 1) {
+            cli_usage_error(cli_command,
+                            "bad --group-regex '%s': it has no capture group ( ) for the group "
+                            "key",
+                            arg);
+            return -1;
+        }
         o->group_regex = arg;
         return 1;
     }
@@ -271,7 +326,7 @@ int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg)
         struct kiln_err e;
         kiln_recipe_defaults(&tmp);
         if (kiln_recipe_set(&tmp, name, arg, &e)) {
-            cli_error("%s", e.msg);
+            cli_usage_error(cli_command, "%s", e.msg);
             return -1;
         }
         if (name[4] == 'p')
@@ -291,7 +346,7 @@ int cli_split_option(struct kiln_split_params *p, const char *name, const char *
         errno = 0;
         unsigned long long v = strtoull(arg, &end, 10);
         if (!*arg || *end || errno || arg[0] == '-') {
-            cli_error("bad --seed '%s': use a whole number from 0 to 2^64-1", arg);
+            cli_usage_error(cli_command, "bad --seed '%s': use a whole number from 0 to 2^64-1", arg);
             return -1;
         }
         p->seed = v;
@@ -300,7 +355,7 @@ int cli_split_option(struct kiln_split_params *p, const char *name, const char *
     if (strcmp(name, "ratios") == 0) {
         bool note;
         if (kiln_split_parse_ratios(arg, p, &note, &e)) {
-            cli_error("%s", e.msg);
+            cli_usage_error(cli_command, "%s", e.msg);
             return -1;
         }
         if (note)
@@ -315,7 +370,7 @@ int cli_split_option(struct kiln_split_params *p, const char *name, const char *
         char *end;
         long v = arg ? strtol(arg, &end, 10) : 6;
         if (arg && (!*arg || *end || v < 0 || v > 16)) {
-            cli_error("bad --merge-near-duplicates '%s': use a number of bits from 0 to 16", arg);
+            cli_usage_error(cli_command, "bad --merge-near-duplicates '%s': use a number of bits from 0 to 16", arg);
             return -1;
         }
         p->near_bits = (int)v;
@@ -327,7 +382,7 @@ int cli_split_option(struct kiln_split_params *p, const char *name, const char *
     }
     if (strcmp(name, "keep-conflicts") == 0) {
         if (strcmp(arg, "test") != 0 && strcmp(arg, "error") != 0) {
-            cli_error("bad --keep-conflicts '%s': use test (or error, the default)", arg);
+            cli_usage_error(cli_command, "bad --keep-conflicts '%s': use test (or error, the default)", arg);
             return -1;
         }
         p->keep_to_test = strcmp(arg, "test") == 0;
@@ -336,7 +391,7 @@ int cli_split_option(struct kiln_split_params *p, const char *name, const char *
     if (strcmp(name, "mode") == 0) {
         int m = kiln_split_mode_parse(arg);
         if (m < 0) {
-            cli_error("bad --mode '%s': use exact or stable", arg);
+            cli_usage_error(cli_command, "bad --mode '%s': use exact or stable", arg);
             return -1;
         }
         p->mode = m;
@@ -366,7 +421,7 @@ int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg)
     for (size_t i = 0; i < sizeof keys / sizeof keys[0]; i++)
         if (strcmp(name, keys[i]) == 0) {
             if (kiln_recipe_set(r, name, arg, &e)) {
-                cli_error("%s", e.msg);
+                cli_usage_error(cli_command, "%s", e.msg);
                 return -1;
             }
             return 1;
@@ -407,7 +462,7 @@ int cli_read_path_key(const char *file, uint8_t **key, size_t *len)
     if (rc == KILN_ETOOLARGE)
         cli_error("cannot use %s as a path key: it is larger than 1 MiB", file);
     else if (rc)
-        cli_error("cannot read the path key %s: %s", file, e.msg);
+        cli_error("cannot read the path key %s (%s)", file, e.msg);
     else if (*len == 0)
         cli_error("cannot use %s as a path key: the file is empty", file);
     if (!rc && *len)
@@ -494,13 +549,24 @@ char *cli_catalog_record_path(const char *csv)
 }
 
 void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recipe *r,
-                            const struct kiln_pack_report *rep, double seconds)
+                            const struct kiln_pack_report *rep, double seconds, bool quiet)
 {
+    /* Warnings are not part of the summary: they are printed with or without --quiet. */
+    if (rep->leaks)
+        cli_warn("the audit found %zu %s spanning splits (manifest.json \"audit\"; kiln "
+                 "audit %s lists them)",
+                 rep->leaks, rep->leaks == 1 ? "group or duplicate" : "groups or duplicates",
+                 outdir);
+    if (rep->missing_classes)
+        cli_warn("%zu %s missing from a split (manifest.json \"audit\")", rep->missing_classes,
+                 rep->missing_classes == 1 ? "class is" : "classes are");
+    if (quiet)
+        return;
     size_t total = 0;
     for (int s = 0; s < KILN_NSPLITS; s++)
         if (rep->present[s]) {
-            fprintf(f, "  %-5s %zu records -> %s/%s\n", kiln_split_name(s), rep->records[s],
-                    outdir, kiln_split_files[s]);
+            fprintf(f, "  %-5s %zu %s -> %s/%s\n", kiln_split_name(s), rep->records[s],
+                    rep->records[s] == 1 ? "record" : "records", outdir, kiln_split_files[s]);
             total += rep->records[s];
         }
     const double maxv = r->depth == 16 ? 65535.0 : 255.0;
@@ -514,18 +580,12 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
         if (kiln_stats_summarize(&rep->stats[KILN_SPLIT_TRAIN].ch[c], maxv, &u, &e) == 0)
             fprintf(f, "  channel %u: mean %.6f  std %.6f\n", c, u.mean, u.std_pop);
     }
-    if (rep->leaks)
-        cli_warn("the audit found %zu groups or duplicates spanning splits (manifest.json "
-                 "\"audit\"; kiln audit %s lists them)",
-                 rep->leaks, outdir);
-    if (rep->missing_classes)
-        cli_warn("%zu classes are missing from a split (manifest.json \"audit\")",
-                 rep->missing_classes);
     if (rep->skipped)
-        fprintf(f, "%zu catalogue rows not packed (see manifest.json \"skipped\")\n",
-                rep->skipped);
-    fprintf(f, "%zu records in %.2f s (%.0f images/s); manifest: %s/manifest.json\n", total,
-            seconds, seconds > 0 ? (double)total / seconds : 0.0, outdir);
+        fprintf(f, "%zu catalogue %s not packed (see manifest.json \"skipped\")\n", rep->skipped,
+                rep->skipped == 1 ? "row" : "rows");
+    fprintf(f, "%zu %s in %.2f s (%.0f images/s); manifest: %s/manifest.json\n", total,
+            total == 1 ? "record" : "records", seconds, seconds > 0 ? (double)total / seconds : 0.0,
+            outdir);
 }
 
 void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,

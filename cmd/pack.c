@@ -19,7 +19,7 @@ static void help(void)
            "  -o, --output DIR     output folder (created; must be empty or a kiln output)\n"
            "%s"
            "  -j, --jobs N         worker threads (default: online CPUs)\n"
-           "  -q, --quiet          no progress or summary\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n",
            cli_recipe_help);
 }
@@ -37,49 +37,13 @@ static const struct option longopts[] = {
     {"max-side", required_argument, NULL, 0},   {NULL, 0, NULL, 0},
 };
 
-int cmd_pack(int argc, char **argv)
+/* Everything after option parsing; returns the exit status. */
+static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
 {
-    struct kiln_pack_opts o;
-    memset(&o, 0, sizeof o);
-    kiln_recipe_defaults(&o.recipe);
-    o.jobs = cli_default_jobs();
-    bool quiet = false;
-    uint8_t *key = NULL;
-    int c, idx;
-    while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
-        switch (c) {
-        case 'o': o.outdir = optarg; break;
-        case 'j':
-            if (cli_parse_jobs(optarg, &o.jobs))
-                return cli_usage_error("pack", "bad --jobs '%s'", optarg);
-            break;
-        case 'q': quiet = true; break;
-        case 'K': {
-            int code = cli_read_path_key(optarg, &key, &o.path_key_len);
-            if (code) {
-                free(key);
-                return code;
-            }
-            o.path_key = key;
-            break;
-        }
-        case 'h': help(); return KILN_EXIT_OK;
-        case 0:
-            if (cli_recipe_option(&o.recipe, longopts[idx].name, optarg) < 0)
-                return KILN_EXIT_USAGE;
-            break;
-        default: return cli_usage_error("pack", "unknown option");
-        }
-    }
-    if (optind + 1 != argc)
-        return cli_usage_error("pack", "name exactly one catalogue");
-    if (!o.outdir)
-        return cli_usage_error("pack", "-o OUTDIR is required");
     struct kiln_err err;
     kiln_err_clear(&err);
-    if (kiln_recipe_finish(&o.recipe, &err))
+    if (kiln_recipe_finish(&o->recipe, &err))
         return cli_usage_error("pack", "%s", err.msg);
-    const char *input = argv[optind];
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool has_split;
@@ -101,25 +65,68 @@ int cmd_pack(int argc, char **argv)
         cli_warn("no record beside %s; the manifest will lack scan and split details", input);
         rec = NULL;
     }
-    o.catalog_record = rec;
+    o->catalog_record = rec;
     struct cli_progress prog;
     cli_progress_start(&prog, "pack", quiet);
-    o.progress = cli_progress_update;
-    o.progress_ctx = &prog;
+    o->progress = cli_progress_update;
+    o->progress_ctx = &prog;
     struct kiln_pack_report rep;
-    rc = kiln_stage_pack(&cat, &o, &rep, &err);
+    rc = kiln_stage_pack(&cat, o, &rep, &err);
     cli_progress_done(&prog);
-    cli_report_debris(o.outdir, &rep.debris);
+    cli_report_debris(o->outdir, &rep.debris);
     int exit_code = KILN_EXIT_OK;
     if (rc) {
         cli_error("%s", err.msg);
         exit_code = cli_exit_for(rc);
-    } else if (!quiet) {
-        cli_print_pack_summary(stdout, o.outdir, &o.recipe, &rep, cli_elapsed(&prog));
+    } else {
+        cli_print_pack_summary(stdout, o->outdir, &o->recipe, &rep, cli_elapsed(&prog), quiet);
     }
     json_decref(rec);
     free(rec_path);
     kiln_catalog_free(&cat);
-    free((void *)o.path_key);
     return exit_code;
+}
+
+int cmd_pack(int argc, char **argv)
+{
+    struct kiln_pack_opts o;
+    memset(&o, 0, sizeof o);
+    kiln_recipe_defaults(&o.recipe);
+    o.jobs = cli_default_jobs();
+    bool quiet = false;
+    uint8_t *key = NULL;
+    int c, idx, code = -1;
+    while (code < 0 && (c = cli_getopt("pack", argc, argv, "o:j:qh", longopts, &idx)) != -1) {
+        switch (c) {
+        case 'o': o.outdir = optarg; break;
+        case 'j':
+            if (cli_parse_jobs(optarg, &o.jobs))
+                code = cli_usage_error("pack", "bad --jobs '%s': use 1 to 1024", optarg);
+            break;
+        case 'q': quiet = true; break;
+        case 'K':
+            if ((code = cli_read_path_key(optarg, &key, &o.path_key_len)) == 0)
+                code = -1; /* read: go on */
+            break;
+        case 'h':
+            help();
+            code = KILN_EXIT_OK;
+            break;
+        case 0:
+            if (cli_recipe_option(&o.recipe, longopts[idx].name, optarg) < 0)
+                code = KILN_EXIT_USAGE;
+            break;
+        default: code = KILN_EXIT_USAGE; break; /* CLI_OPT_ERROR, reported */
+        }
+    }
+    if (code < 0 && optind + 1 != argc)
+        code = cli_usage_error("pack", "name exactly one catalogue");
+    if (code < 0 && !o.outdir)
+        code = cli_usage_error("pack", "-o OUTDIR is required");
+    if (code < 0) {
+        o.path_key = key;
+        code = pack(argv[optind], &o, quiet);
+    }
+    free(key);
+    return code;
 }

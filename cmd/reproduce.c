@@ -24,7 +24,7 @@ static void help(void)
            "  --path-key FILE      the key of a --hash-paths output, to tell items in place\n"
            "                       from moved ones (not needed with the public key)\n"
            "  -j, --jobs N         worker threads (default: online CPUs)\n"
-           "  -q, --quiet          print only problems and the verdict\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n");
 }
 
@@ -77,13 +77,21 @@ static int reproduce(struct kiln_reproduce_opts *o, bool quiet)
     if (!quiet)
         printf("%zu recorded items: %zu found (%zu at a new location), %zu missing\n", rep.items,
                rep.found, rep.moved, rep.missing);
-    printf("%-14s %-10s %-16s %-16s\n", "output", "verdict", "recorded", "rebuilt");
-    for (size_t i = 0; i < rep.noutputs; i++)
+    /* With --quiet only what differs is shown; the exit status gives the verdict. */
+    bool header = false;
+    for (size_t i = 0; i < rep.noutputs; i++) {
+        if (quiet && rep.out[i].identical)
+            continue;
+        if (!header)
+            printf("%-14s %-10s %-16s %-16s\n", "output", "verdict", "recorded", "rebuilt");
+        header = true;
         printf("%-14s %-10s %.16s %.16s\n", rep.out[i].name,
                rep.out[i].identical ? "identical" : "DIFFERENT", rep.out[i].recorded,
                rep.out[i].rebuilt);
+    }
     if (rep.all_identical) {
-        printf("every output is byte-identical to the recorded one (%s)\n", o->outdir);
+        if (!quiet)
+            printf("every output is byte-identical to the recorded one (%s)\n", o->outdir);
         return KILN_EXIT_OK;
     }
     if (rep.split_differs)
@@ -114,14 +122,15 @@ int cmd_reproduce(int argc, char **argv)
     uint8_t *key = NULL;
     bool quiet = false;
     int c, code = -1;
-    while (code < 0 && (c = getopt_long(argc, argv, "s:o:j:qh", longopts, NULL)) != -1) {
+    while (code < 0 &&
+           (c = cli_getopt("reproduce", argc, argv, "s:o:j:qh", longopts, NULL)) != -1) {
         switch (c) {
         case 's': sources[o.nsources++] = optarg; break;
         case 'o': o.outdir = optarg; break;
         case 'A': o.allow_missing = true; break;
         case 'j':
             if (cli_parse_jobs(optarg, &o.jobs))
-                code = cli_usage_error("reproduce", "bad --jobs '%s'", optarg);
+                code = cli_usage_error("reproduce", "bad --jobs '%s': use 1 to 1024", optarg);
             break;
         case 'K':
             if ((code = cli_read_path_key(optarg, &key, &o.path_key_len)) == 0)
@@ -132,7 +141,7 @@ int cmd_reproduce(int argc, char **argv)
             help();
             code = KILN_EXIT_OK;
             break;
-        default: code = cli_usage_error("reproduce", "unknown option"); break;
+        default: code = KILN_EXIT_USAGE; break; /* CLI_OPT_ERROR, reported */
         }
     }
     if (code < 0 && (optind + 1 != argc || !o.nsources || !o.outdir))

@@ -22,7 +22,7 @@ static void help(void)
            "%s"
            "  --strict             exit with status 3 if any row is not ok\n"
            "  -j, --jobs N         worker threads (default: online CPUs)\n"
-           "  -q, --quiet          no progress or summary\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n",
            cli_scan_help);
 }
@@ -44,12 +44,12 @@ int cmd_scan(int argc, char **argv)
     const char *output = NULL;
     bool quiet = false, strict = false;
     int c, idx;
-    while ((c = getopt_long(argc, argv, "o:j:qh", longopts, &idx)) != -1) {
+    while ((c = cli_getopt("scan", argc, argv, "o:j:qh", longopts, &idx)) != -1) {
         switch (c) {
         case 'o': output = optarg; break;
         case 'j':
             if (cli_parse_jobs(optarg, &o.jobs))
-                return cli_usage_error("scan", "bad --jobs '%s'", optarg);
+                return cli_usage_error("scan", "bad --jobs '%s': use 1 to 1024", optarg);
             break;
         case 'q': quiet = true; break;
         case 's': strict = true; break;
@@ -58,13 +58,16 @@ int cmd_scan(int argc, char **argv)
             if (cli_scan_option(&o, longopts[idx].name, optarg) < 0)
                 return KILN_EXIT_USAGE;
             break;
-        default: return cli_usage_error("scan", "unknown option");
+        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
         }
     }
     if (!output)
         return cli_usage_error("scan", "-o catalog.csv is required");
     if (optind >= argc)
         return cli_usage_error("scan", "name at least one source folder or archive");
+    int code = cli_check_output_file(output); /* before the scan, not after it */
+    if (code)
+        return code;
     int nsrc = argc - optind;
     char **sources = cli_sources_new(nsrc, argv + optind);
     if (!sources) {

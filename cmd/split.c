@@ -20,7 +20,7 @@ static void help(void)
            "options:\n"
            "%s"
            "  -o, --output FILE    write the split catalogue here instead of in place\n"
-           "  -q, --quiet          no summary\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n",
            cli_split_help);
 }
@@ -42,7 +42,7 @@ int cmd_split(int argc, char **argv)
     struct kiln_err err;
     const char *output = NULL;
     int c, idx;
-    while ((c = getopt_long(argc, argv, "o:qh", longopts, &idx)) != -1) {
+    while ((c = cli_getopt("split", argc, argv, "o:qh", longopts, &idx)) != -1) {
         switch (c) {
         case 'o': output = optarg; break;
         case 'q': quiet = true; break;
@@ -52,7 +52,7 @@ int cmd_split(int argc, char **argv)
                 return KILN_EXIT_USAGE;
             seeded |= strcmp(longopts[idx].name, "seed") == 0;
             break;
-        default: return cli_usage_error("split", "unknown option");
+        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
         }
     }
     if (optind + 1 != argc)
@@ -62,6 +62,9 @@ int cmd_split(int argc, char **argv)
     const char *input = argv[optind];
     if (!output)
         output = input;
+    int code = cli_check_output_file(output);
+    if (code)
+        return code;
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool had_split;
@@ -76,7 +79,7 @@ int cmd_split(int argc, char **argv)
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report rep;
-    int code = cli_split_catalog(&cat, &p, &units, &rep);
+    code = cli_split_catalog(&cat, &p, &units, &rep);
     if (code) {
         kiln_units_free(&units);
         kiln_catalog_free(&cat);

@@ -20,7 +20,7 @@ static void help(void)
            "  -s, --source DIR     check the sources too (repeatable)\n"
            "  --path-key FILE      the key of a --hash-paths output, to tell files in place\n"
            "                       from moved ones (not needed with the public key)\n"
-           "  -q, --quiet          print only problems\n"
+           "  -q, --quiet          print only problems: no progress, no summary\n"
            "  -h, --help           this text\n");
 }
 
@@ -96,7 +96,7 @@ int cmd_verify(int argc, char **argv)
         return KILN_EXIT_FAILURE;
     }
     int c, code = -1;
-    while (code < 0 && (c = getopt_long(argc, argv, "s:qh", longopts, NULL)) != -1) {
+    while (code < 0 && (c = cli_getopt("verify", argc, argv, "s:qh", longopts, NULL)) != -1) {
         switch (c) {
         case 's': sources[nsources++] = optarg; break;
         case 'K':
@@ -108,7 +108,7 @@ int cmd_verify(int argc, char **argv)
             help();
             code = KILN_EXIT_OK;
             break;
-        default: code = cli_usage_error("verify", "unknown option"); break;
+        default: code = KILN_EXIT_USAGE; break; /* CLI_OPT_ERROR, reported */
         }
     }
     if (code < 0 && optind + 1 != argc)

@@ -272,14 +272,21 @@ int kiln_kten_open(const char *path, struct kiln_kten_info *info, struct kiln_er
         rc = kiln_err_sys(err, KILN_EIO, errno, "cannot stat %s", path);
         goto done;
     }
+    if (!S_ISREG(st.st_mode)) {
+        rc = kiln_err_set(err, KILN_EINVAL, "%s is %s, not a .kten file", path,
+                          S_ISDIR(st.st_mode) ? "a folder" : "not a regular file");
+        goto done;
+    }
     if ((uint64_t)st.st_size < KILN_KTEN_HEADER) {
         rc = kiln_err_set(err, KILN_ECORRUPT, "%s: %lld bytes is shorter than a .kten header",
                           path, (long long)st.st_size);
         goto done;
     }
     rc = pread_all(fd, h, KILN_KTEN_HEADER, 0, err);
-    if (rc)
+    if (rc) {
+        kiln_err_prefix(err, "%s", path);
         goto done;
+    }
     if (memcmp(h, KILN_KTEN_MAGIC, 8) != 0) {
         rc = kiln_err_set(err, KILN_ECORRUPT, "%s is not a .kten file (bad magic)", path);
         goto done;

@@ -2,11 +2,13 @@
 #include "manifest.h"
 
 #include <archive.h>
+#include <errno.h>
 #include <openssl/crypto.h>
 #include <stdbool.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <zlib.h>
 
 #include "../core/resize.h"
@@ -44,10 +46,32 @@ int kiln_json_save(const char *path, const json_t *doc, struct kiln_err *err)
 
 int kiln_json_load(const char *path, json_t **doc, struct kiln_err *err)
 {
+    /* Opened here, not by jansson, so that a missing file or a folder is named as such
+     * (jansson reports those with line -1). */
+    *doc = NULL;
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return kiln_err_sys(err, KILN_EIO, errno, "cannot open %s", path);
+    struct stat st;
+    if (fstat(fileno(f), &st) != 0) {
+        int e = errno;
+        fclose(f);
+        return kiln_err_sys(err, KILN_EIO, e, "cannot read %s", path);
+    }
+    if (!S_ISREG(st.st_mode)) {
+        fclose(f);
+        return kiln_err_set(err, KILN_EINVAL, "%s is %s, not a JSON file", path,
+                            S_ISDIR(st.st_mode) ? "a folder" : "not a regular file");
+    }
     json_error_t je;
-    *doc = json_load_file(path, JSON_REJECT_DUPLICATES, &je);
+    *doc = json_loadf(f, JSON_REJECT_DUPLICATES, &je);
+    const bool read_error = ferror(f);
+    fclose(f);
+    if (!*doc && read_error)
+        return kiln_err_sys(err, KILN_EIO, EIO, "cannot read %s", path);
     if (!*doc)
-        return kiln_err_set(err, KILN_EINVAL, "%s:%d: %s", path, je.line, je.text);
+        return kiln_err_set(err, KILN_EINVAL, "%s is not valid JSON: %s (line %d, column %d)",
+                            path, je.text, je.line, je.column);
     if (!json_is_object(*doc)) {
         json_decref(*doc);
         *doc = NULL;

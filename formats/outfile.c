@@ -49,7 +49,8 @@ int kiln_outfile_open(struct kiln_outfile *of, const char *final_path, struct ki
     of->fd = open(of->tmp_path, O_RDWR | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
     if (of->fd < 0) {
         int e = errno;
-        kiln_err_sys(err, KILN_EIO, e, "cannot create %s", of->tmp_path);
+        /* The temporary name is kiln's business; the user named the final one. */
+        kiln_err_sys(err, KILN_EIO, e, "cannot write %s", of->final_path);
         free(of->tmp_path);
         free(of->final_path);
         of->tmp_path = of->final_path = NULL;
@@ -88,7 +89,7 @@ FILE *kiln_outfile_stream(struct kiln_outfile *of, struct kiln_err *err)
     if (!of->f) {
         of->f = fdopen(of->fd, "wb");
         if (!of->f)
-            kiln_err_sys(err, KILN_EIO, errno, "cannot write %s", of->tmp_path);
+            kiln_err_sys(err, KILN_EIO, errno, "cannot write %s", of->final_path);
     }
     return of->f;
 }

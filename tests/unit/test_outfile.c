@@ -122,12 +122,27 @@ static void test_temp_names(void **state)
         assert_false(kiln_outfile_is_temp_name(not_ours[i], "items.csv", &pid));
 }
 
+/* A file that cannot be created is named as the user named it, never by its temporary name. */
+static void test_open_failure_names_the_file(void **state)
+{
+    (void)state;
+    char p[160];
+    snprintf(p, sizeof p, "%s/no-such-folder/catalog.csv", tmpdir);
+    struct kiln_outfile of;
+    struct kiln_err err = {0};
+    assert_int_equal(kiln_outfile_open(&of, p, &err), KILN_EIO);
+    assert_non_null(strstr(err.msg, p));
+    assert_null(strstr(err.msg, ".tmp-"));
+    assert_non_null(strstr(err.msg, "No such file or directory"));
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test_setup_teardown(test_file_sha256, setup, teardown),
         cmocka_unit_test_setup_teardown(test_file_sha256_failures, setup, teardown),
         cmocka_unit_test_setup_teardown(test_temp_names, setup, teardown),
+        cmocka_unit_test_setup_teardown(test_open_failure_names_the_file, setup, teardown),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
