@@ -145,6 +145,16 @@ static int label_table_load(struct label_table *t, const char *path, struct kiln
     return KILN_OK;
 }
 
+int kiln_labels_csv_check(const char *path, size_t *rows, struct kiln_err *err)
+{
+    struct label_table t;
+    int rc = label_table_load(&t, path, err);
+    *rows = rc ? 0 : t.n;
+    if (!rc)
+        label_table_free(&t);
+    return rc;
+}
+
 /* ---- pixel digest and difference hash ----------------------------------------------------- */
 
 static int host_little_endian(void)

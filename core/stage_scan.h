@@ -56,6 +56,10 @@ struct kiln_scan_report {
 int kiln_stage_scan(const char *const *sources, size_t nsources, const struct kiln_scan_opts *o,
                     struct kiln_catalog *cat, struct kiln_scan_report *rep, struct kiln_err *err);
 
+/* Loads a labels CSV (--labels csv:FILE) with scan's own loader and checks it, then frees it:
+ * KILN_OK with *rows set, or the error scan would report. Lets tests/fuzz/ reach the loader. */
+int kiln_labels_csv_check(const char *path, size_t *rows, struct kiln_err *err);
+
 /* The name the label and group rules see: path, member, or "path/member" (docs/cli.md). The
  * result is written to buf (truncated to len). */
 void kiln_item_relname(const char *path, const char *member, char *buf, size_t len);

@@ -176,9 +176,12 @@ static int png_decode_fn(const uint8_t *data, size_t len, const struct kiln_imag
     }
     png_set_user_limits(c.png, want->width, want->height);
     if (want->trusted) {
-        /* The bytes already matched their recorded SHA-256, so the chunk CRC-32s and the
-         * stream's Adler-32 can only agree; skipping them saves a pass over the data. */
-        png_set_crc_action(c.png, PNG_CRC_QUIET_USE, PNG_CRC_QUIET_USE);
+        /* The bytes already matched their recorded SHA-256 and decoded cleanly, so the critical
+         * chunks' CRC-32s and the stream's Adler-32 can only agree; skipping them saves a pass
+         * over the data. Ancillary chunks keep the default: a damaged one is dropped with a
+         * warning in the checked read, and using it here instead (a tRNS adds an alpha channel)
+         * would change the image between scan and pack. */
+        png_set_crc_action(c.png, PNG_CRC_QUIET_USE, PNG_CRC_DEFAULT);
 #ifdef PNG_IGNORE_ADLER32
         png_set_option(c.png, PNG_IGNORE_ADLER32, PNG_OPTION_ON);
 #endif

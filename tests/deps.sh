@@ -1,4 +1,5 @@
-# The Debian packages kiln needs, in one place. Sourced by examples/demo.sh and tests/run.sh.
+# The Debian packages kiln needs, in one place. Sourced by examples/demo.sh, tests/run.sh,
+# tests/fuzz/run.sh and .ci/run.
 # kiln_deps_install: installs what is missing when root, otherwise prints the exact command.
 KILN_BUILD_PACKAGES="build-essential cmake pkg-config libpng-dev libjpeg62-turbo-dev zlib1g-dev \
 libarchive-dev libssl-dev libjansson-dev libtiff-dev"
@@ -9,6 +10,8 @@ KILN_PYTHON_PACKAGES="python3-numpy python3-pip python3-setuptools python3-wheel
 # published real images.
 KILN_TEST_PACKAGES="libcmocka-dev python3-numpy python3-pil zip xz-utils bzip2 zstd libarchive-tools \
 $KILN_PYTHON_PACKAGES python3-sklearn python3-skimage python-matplotlib-data python3-tifffile"
+# tests/fuzz/run.sh: clang with libFuzzer and the sanitizer run-times
+KILN_FUZZ_PACKAGES="clang libclang-rt-14-dev"
 
 kiln_deps_install() {
     local pkgs="$1" missing="" p
