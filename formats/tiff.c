@@ -14,6 +14,9 @@
 
 /* libtiff refuses single allocations above this instead of trusting a hostile header. */
 #define TIFF_MAX_ALLOC ((tmsize_t)1 << 30)
+/* kiln's own tile buffer: at most the image's size, or this for small images (a 1024x1024
+ * RGBA 16-bit tile is 8 MiB). */
+#define TIFF_TILE_FLOOR ((size_t)16 << 20)
 
 struct tiff_mem {
     const uint8_t *data;
@@ -340,6 +343,14 @@ static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s
             !kiln_mul3_size(tw, th, (size_t)per_block * (s->bps / 8), &need) ||
             (size_t)ts < need)
             return kiln_err_set(err, KILN_ECORRUPT, "TIFF tile geometry is inconsistent");
+        /* The pixel limits saw the image size, not the tile size: a 17x9 image declaring
+         * 4294639632x16 tiles asked for 64 GiB here. Tiles may overhang the image, not dwarf it. */
+        const size_t image_bytes = out->stride * out->height;
+        if ((size_t)ts > (image_bytes > TIFF_TILE_FLOOR ? image_bytes : TIFF_TILE_FLOOR))
+            return kiln_err_set(err, KILN_EUNSUPPORTED,
+                                "TIFF tiles of %ux%u for a %ux%u image are not supported (a tile "
+                                "may hold at most the image or 16 MiB)",
+                                tw, th, s->w, s->h);
         buf = malloc((size_t)ts);
         if (!buf)
             return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a TIFF tile");

@@ -19,6 +19,9 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 #define FUZZ_MAX_SIDE 65535u
 /* Largest archive member the archive harness reads (kiln's default is 4 GiB). */
 #define FUZZ_MAX_MEMBER (16u << 20)
+/* Within these limits every honest allocation fits, so the harnesses treat KILN_ENOMEM as a
+ * bug: it means a size taken from the input reached malloc unchecked. (Under AddressSanitizer
+ * such a request aborts at once; in the plain replay it fails and breaks this rule.) */
 
 /* A broken invariant is a bug: say which and abort, so libFuzzer keeps the input as a crash
  * and the replay test fails. */
@@ -29,6 +32,14 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
             abort();                                                                         \
         }                                                                                    \
     } while (0)
+
+/* Coverage feedback for what kiln cannot see: the decoding libraries are Debian's builds,
+ * without coverage instrumentation, so an input that makes libpng take a new branch looks like
+ * nothing new to libFuzzer. Each distinct outcome (return code, message without its numbers
+ * and quoted names, decoded shape) is fed to libFuzzer as a feature of its own through an extra-counters
+ * table, so inputs reaching new library behaviour are kept. A no-op counter without libFuzzer. */
+void fuzz_outcome(int code, const char *what);
+void fuzz_outcome_bytes(const void *data, size_t len);
 
 /* Marks the current input as fully accepted by the code under test (decoded, parsed, loaded).
  * The replay driver's --valid folders must be accepted input by input: that is what makes the

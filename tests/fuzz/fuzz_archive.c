@@ -21,6 +21,7 @@ static int on_entry(void *ctx, struct kiln_source_entry *e, struct kiln_err *err
     FUZZ_CHECK(e->root && e->path && e->member);
     FUZZ_CHECK(e->status >= 0 && e->status < KILN_ST_COUNT);
     FUZZ_CHECK(memchr(e->reason, '\0', sizeof e->reason) != NULL);
+    fuzz_outcome(e->status, e->reason);
     if (e->status == KILN_ST_OK) {
         FUZZ_CHECK(e->data != NULL && e->size <= FUZZ_MAX_MEMBER);
         /* scan's next steps on the bytes: is it a nested archive, which decoder bids */
@@ -47,6 +48,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     /* A source that is not an archive at all is the user's mistake (EINVAL); anything wrong
      * inside one is a row. */
     FUZZ_CHECK(rc == KILN_OK || rc == KILN_EINVAL);
+    fuzz_outcome(rc, rc ? err.msg : NULL);
+    fuzz_outcome_bytes(&counts, sizeof counts);
     if (rc)
         FUZZ_CHECK(err.msg[0] != '\0' && w.entries == 0);
     else if (w.ok)

@@ -13,6 +13,7 @@ static void on_issue(void *ctx, int kind, const char *msg)
 {
     FUZZ_CHECK(kind >= KILN_ISSUE_DAMAGED && kind <= KILN_ISSUE_SOURCE_EXTRA);
     FUZZ_CHECK(msg && msg[0]);
+    fuzz_outcome(kind, msg);
     ++*(size_t *)ctx;
 }
 
@@ -28,12 +29,14 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     json_t *m = NULL;
     struct kiln_err err = {0};
     int rc = kiln_json_load(mpath, &m, &err);
+    fuzz_outcome(rc, rc ? err.msg : NULL);
     if (rc) {
         FUZZ_CHECK(rc == KILN_EINVAL && m == NULL && strstr(err.msg, mpath) != NULL);
         return 0;
     }
     struct kiln_recipe r;
     rc = kiln_recipe_from_json(json_object_get(m, "recipe"), &r, &err);
+    fuzz_outcome(rc + 100, rc ? err.msg : NULL);
     FUZZ_CHECK(rc == KILN_OK || rc == KILN_EINVAL || rc == KILN_EUNSUPPORTED);
     if (rc == KILN_OK) {
         /* What the recipe writes, it reads back to the same recipe. */
@@ -55,6 +58,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     struct kiln_verify_report rep;
     rc = kiln_stage_verify(fuzz_tmpdir(), on_issue, &issues, &rep, &err);
     FUZZ_CHECK(rc == KILN_OK || rc == KILN_EMISMATCH || rc == KILN_EINVAL);
+    fuzz_outcome(rc + 200, rc ? err.msg : NULL);
     FUZZ_CHECK(issues == rep.problems || rc == KILN_EINVAL);
     FUZZ_CHECK((rc == KILN_EMISMATCH) == (rep.problems > 0));
     return 0;
