@@ -325,6 +325,27 @@ static void unpremultiply(struct kiln_image *out)
         }
 }
 
+/* The pixel limits saw the image size, not the tile size: a 17x9 image declaring
+ * 4294639632x16 tiles made kiln ask for 64 GiB, and libtiff's RGBA reader allocates a tile too.
+ * Tiles may overhang the image, not dwarf it: one may hold at most image_bytes (what the image
+ * costs in that reader) or TIFF_TILE_FLOOR. */
+static int check_tile_size(TIFF *tif, const struct tiff_shape *s, size_t image_bytes,
+                           struct kiln_err *err)
+{
+    if (!TIFFIsTiled(tif))
+        return KILN_OK;
+    uint32_t tw = 0, th = 0;
+    TIFFGetField(tif, TIFFTAG_TILEWIDTH, &tw);
+    TIFFGetField(tif, TIFFTAG_TILELENGTH, &th);
+    tmsize_t ts = TIFFTileSize(tif);
+    if (ts > 0 && (size_t)ts > (image_bytes > TIFF_TILE_FLOOR ? image_bytes : TIFF_TILE_FLOOR))
+        return kiln_err_set(err, KILN_EUNSUPPORTED,
+                            "TIFF tiles of %ux%u for a %ux%u image are not supported (a tile may "
+                            "hold at most the image or 16 MiB)",
+                            tw, th, s->w, s->h);
+    return KILN_OK;
+}
+
 static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s,
                        struct kiln_image *out, struct kiln_err *err)
 {
@@ -343,14 +364,9 @@ static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s
             !kiln_mul3_size(tw, th, (size_t)per_block * (s->bps / 8), &need) ||
             (size_t)ts < need)
             return kiln_err_set(err, KILN_ECORRUPT, "TIFF tile geometry is inconsistent");
-        /* The pixel limits saw the image size, not the tile size: a 17x9 image declaring
-         * 4294639632x16 tiles asked for 64 GiB here. Tiles may overhang the image, not dwarf it. */
-        const size_t image_bytes = out->stride * out->height;
-        if ((size_t)ts > (image_bytes > TIFF_TILE_FLOOR ? image_bytes : TIFF_TILE_FLOOR))
-            return kiln_err_set(err, KILN_EUNSUPPORTED,
-                                "TIFF tiles of %ux%u for a %ux%u image are not supported (a tile "
-                                "may hold at most the image or 16 MiB)",
-                                tw, th, s->w, s->h);
+        rc = check_tile_size(tif, s, out->stride * out->height, err);
+        if (rc)
+            return rc;
         buf = malloc((size_t)ts);
         if (!buf)
             return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a TIFF tile");
@@ -401,13 +417,15 @@ static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s
 static int read_rgba(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s,
                      struct kiln_image *out, struct kiln_err *err)
 {
+    int rc = check_tile_size(tif, s, (size_t)s->w * s->h * sizeof(uint32_t), err);
+    if (rc)
+        return rc;
     uint32_t *raster = kiln_alloc_array((size_t)s->w * s->h, sizeof *raster);
     if (!raster)
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a %ux%u TIFF raster", s->w, s->h);
     /* Asking for the file's own orientation makes libtiff keep the stored row order; kiln
      * applies the orientation itself, the same way for every format. */
     int ok = TIFFReadRGBAImageOriented(tif, s->w, s->h, raster, s->orientation, 1);
-    int rc = KILN_OK;
     if (!ok || m->errors)
         rc = kiln_err_set(err, m->errors ? error_code(m) : KILN_ECORRUPT, "TIFF %s",
                           m->errors ? m->error : "image data unreadable");
