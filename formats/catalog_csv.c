@@ -8,6 +8,7 @@
 
 #include "../core/textesc.h"
 #include "csv.h"
+#include "decoder.h"
 #include "outfile.h"
 
 enum col {
@@ -174,6 +175,10 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
         uint32_t u;
         uint64_t x;
         int st = kiln_status_parse(v[C_STATUS]);
+        /* A decoder's name or nothing: pack looks the decoder up by this name, and a name
+         * that is not one would not survive being written back (it is not escaped). */
+        if (!bad && text[C_FORMAT][0] && !kiln_decoder_by_name(text[C_FORMAT]))
+            bad = "format";
         if (!bad && parse_u64(v[C_SIZE], &it.size, 10))
             bad = "size";
         if (!bad && st < 0)
