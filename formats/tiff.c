@@ -109,10 +109,12 @@ static int on_warning(TIFF *tif, void *user, const char *module, const char *fmt
 static int error_code(const struct tiff_mem *m);
 
 /* The offset of the first image directory from the header (TIFF 6.0 section 2; BigTIFF keeps
- * it as 8 bytes at offset 8), or UINT64_MAX when the header itself is cut short. The probe has
- * already checked the byte order mark and the version. */
+ * it as 8 bytes at offset 8), or UINT64_MAX when the header itself is cut short. Decoders are
+ * also called without a probe (pack calls the recorded one), so len may be anything. */
 static uint64_t first_ifd_offset(const uint8_t *d, size_t len)
 {
+    if (len < 4)
+        return UINT64_MAX;
     const bool le = d[0] == 'I', big = d[le ? 2 : 3] == 43;
     const size_t at = big ? 8 : 4, n = big ? 8 : 4;
     if (len < at + n)
