@@ -19,9 +19,15 @@
 
 unsigned kiln_neardup_substrings(unsigned radius, unsigned *start, unsigned *len)
 {
-    if (radius > KILN_NEARDUP_MAX_RADIUS)
+    return kiln_neardup_substrings_bits(radius, 64, start, len);
+}
+
+unsigned kiln_neardup_substrings_bits(unsigned radius, unsigned nbits, unsigned *start,
+                                      unsigned *len)
+{
+    if (radius > KILN_NEARDUP_MAX_RADIUS || nbits > 64 || radius + 1 > nbits)
         return 0;
-    unsigned m = radius + 1, q = 64 / m, e = 64 % m;
+    unsigned m = radius + 1, q = nbits / m, e = nbits % m;
     for (unsigned t = 0; t < m; t++) {
         if (start)
             start[t] = t * q + (t < e ? t : e);
@@ -45,6 +51,7 @@ void kiln_pairs_free(struct kiln_pairs *p)
 struct scan {
     const uint64_t *hash;  /* hashes in this table's bucket order */
     const uint32_t *index; /* their item indices; ascending within a bucket (stable sort) */
+    const uint8_t *side;   /* NULL, or only pairs of items on different sides are wanted */
     const uint64_t *mask;  /* mask[s] selects substring s's bits */
     unsigned table;        /* t: pairs agreeing on a substring s < t were reported earlier */
     unsigned radius;
@@ -71,6 +78,8 @@ __attribute__((noinline)) static int scan_emit(const struct scan *sc, size_t a, 
     for (unsigned s = 0; s < sc->table; s++)
         if ((d & sc->mask[s]) == 0)
             return KILN_OK; /* table s found it */
+    if (sc->side && sc->side[sc->index[a]] == sc->side[sc->index[b]])
+        return KILN_OK;
     assert(sc->index[a] < sc->index[b]);
     return push_pair(sc->out, sc->index[a], sc->index[b]);
 }
@@ -187,10 +196,26 @@ int kiln_neardup_pairs(const uint64_t *hash, size_t n, unsigned radius, struct k
 int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n,
                               unsigned radius, struct kiln_pairs *out, struct kiln_err *err)
 {
+    struct kiln_neardup_query q = {.hash = hash, .use = use, .n = n, .nbits = 64,
+                                   .radius = radius};
+    return kiln_neardup_search(&q, out, err);
+}
+
+int kiln_neardup_search(const struct kiln_neardup_query *query, struct kiln_pairs *out,
+                        struct kiln_err *err)
+{
+    const uint64_t *hash = query->hash;
+    const uint8_t *use = query->use;
+    size_t n = query->n;
+    unsigned radius = query->radius, nbits = query->nbits;
     if (radius > KILN_NEARDUP_MAX_RADIUS)
         return kiln_err_set(err, KILN_EINVAL,
                             "near-duplicate radius %u is out of range (0 to %u bits)", radius,
                             KILN_NEARDUP_MAX_RADIUS);
+    if (nbits < 1 || nbits > 64 || radius + 1 > nbits)
+        return kiln_err_set(err, KILN_EINVAL,
+                            "near-duplicate hashes of %u bits cannot be searched at radius %u",
+                            nbits, radius);
     if (n > UINT32_MAX)
         return kiln_err_set(err, KILN_EINVAL,
                             "too many hashes for the near-duplicate search: %zu (at most %u)", n,
@@ -206,7 +231,8 @@ int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n
 
     unsigned start[MAX_TABLES], len[MAX_TABLES];
     uint64_t mask[MAX_TABLES];
-    unsigned m = kiln_neardup_substrings(radius, start, len), maxlen = 0;
+    const uint64_t used = nbits == 64 ? UINT64_MAX : ~(UINT64_MAX >> nbits);
+    unsigned m = kiln_neardup_substrings_bits(radius, nbits, start, len), maxlen = 0;
     for (unsigned t = 0; t < m; t++) {
         unsigned low = 64 - start[t] - len[t]; /* bit position of the substring's last bit */
         mask[t] = (len[t] == 64 ? UINT64_MAX : (UINT64_C(1) << len[t]) - 1) << low;
@@ -233,7 +259,7 @@ int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n
     }
     for (size_t i = 0, k = 0; i < n; i++)
         if (!use || use[i]) {
-            h0[k] = hash[i];
+            h0[k] = hash[i] & used; /* bits below the hash play no part */
             i0[k++] = (uint32_t)i;
         }
 
@@ -260,8 +286,8 @@ int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n
             id = id == ia ? ib : ia;
         }
 
-        struct scan sc = {.hash = hs, .index = is, .mask = mask, .table = t, .radius = radius,
-                          .out = out};
+        struct scan sc = {.hash = hs, .index = is, .side = query->side, .mask = mask,
+                          .table = t, .radius = radius, .out = out};
         for (size_t b = 0, e; b < nu && rc == KILN_OK; b = e) {
             for (e = b + 1; e < nu && ((hs[e] ^ hs[b]) & mask[t]) == 0; e++)
                 ;

@@ -72,11 +72,34 @@ int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n
 int kiln_neardup_links(const uint64_t *hash, const uint8_t *use, size_t n, unsigned radius,
                        struct kiln_pairs *out, struct kiln_err *err);
 
+/* The general search behind the functions above. hash[i] holds a hash of nbits bits (1 to 64)
+ * in its most significant bits; the bits below are ignored. The substrings of the method are cut
+ * from those nbits bits (kiln_neardup_substrings_bits). use as in kiln_neardup_pairs_masked. side
+ * NULL: every pair within the radius; otherwise only pairs with side[i] != side[j] (a join of
+ * two sets placed in one array, e.g. hashes against the hashes of rotated pictures). Pairs are
+ * (i, j), i < j, sorted, each once, appended to out as kiln_neardup_pairs does. Errors: those of
+ * kiln_neardup_pairs_masked, and KILN_EINVAL when nbits is 0, above 64 or not above radius. */
+struct kiln_neardup_query {
+    const uint64_t *hash;
+    const uint8_t *use;  /* NULL: every item takes part */
+    const uint8_t *side; /* NULL: all pairs; else only pairs across sides */
+    size_t n;
+    unsigned nbits;  /* 1..64 */
+    unsigned radius; /* 0..KILN_NEARDUP_MAX_RADIUS, below nbits */
+};
+int kiln_neardup_search(const struct kiln_neardup_query *q, struct kiln_pairs *out,
+                        struct kiln_err *err);
+
 /* The substring split used for radius (see the comment at the top): fills start[t] (bit offset
  * from the most significant bit, 0..63) and len[t] (bits) for t = 0..m-1 and returns
  * m = radius + 1; returns 0 and writes nothing when radius > KILN_NEARDUP_MAX_RADIUS. Either
  * array may be NULL; otherwise it must hold KILN_NEARDUP_MAX_RADIUS + 1 entries. */
 unsigned kiln_neardup_substrings(unsigned radius, unsigned *start, unsigned *len);
+/* The same for hashes of nbits bits: m = radius + 1 substrings of nbits / m or nbits / m + 1
+ * bits, the longer ones first, offsets counted from the most significant bit. Returns 0 when
+ * radius > KILN_NEARDUP_MAX_RADIUS, nbits > 64 or radius + 1 > nbits. */
+unsigned kiln_neardup_substrings_bits(unsigned radius, unsigned nbits, unsigned *start,
+                                      unsigned *len);
 
 /* Frees a pair list whose buffer came from malloc (as kiln_neardup_pairs leaves it) and resets
  * it to empty ({NULL, 0, 0}). p may be NULL. Do not call it on a list that points at caller

@@ -410,6 +410,76 @@ static void test_all_identical(void **state)
     }
 }
 
+/* Hashes shorter than 64 bits: the bits below them are ignored (here filled with noise that
+ * would otherwise change every distance), the substrings are cut from the nbits bits, and the
+ * result is the brute force over the masked values. With side, only pairs across the two sides
+ * are reported, which the brute force filters the same way. */
+static void test_bits_and_sides(void **state)
+{
+    (void)state;
+    enum { N = 6000 };
+    uint64_t *h = planted_set(N, 515), *masked = malloc(N * sizeof *masked), s = 9;
+    uint8_t *side = malloc(N);
+    assert_non_null(masked);
+    assert_non_null(side);
+    static const unsigned bits[] = {63, 35, 20};
+    for (size_t b = 0; b < sizeof bits / sizeof *bits; b++) {
+        const unsigned nb = bits[b];
+        const uint64_t top = ~(UINT64_MAX >> nb);
+        for (size_t i = 0; i < N; i++) {
+            masked[i] = h[i] & top;
+            side[i] = (uint8_t)below(&s, 2);
+        }
+        uint64_t *noisy = malloc(N * sizeof *noisy);
+        assert_non_null(noisy);
+        for (size_t i = 0; i < N; i++)
+            noisy[i] = masked[i] | (splitmix64(&s) & ~top);
+        for (unsigned r = 0; r <= 6 && r < nb; r += 3) {
+            struct ref ref = {0};
+            brute_force(masked, NULL, N, r, &ref);
+            for (int two = 0; two <= 1; two++) {
+                struct kiln_pairs got = {0};
+                struct kiln_err err = {0};
+                struct kiln_neardup_query q = {.hash = noisy, .side = two ? side : NULL, .n = N,
+                                               .nbits = nb, .radius = r};
+                assert_int_equal(kiln_neardup_search(&q, &got, &err), KILN_OK);
+                struct ref want = {0};
+                for (size_t k = 0; k < ref.n; k++)
+                    if (!two || side[ref.p[k].i] != side[ref.p[k].j]) {
+                        if (want.n == want.cap) {
+                            want.cap = want.cap ? 2 * want.cap : 256;
+                            want.p = realloc(want.p, want.cap * sizeof *want.p);
+                            assert_non_null(want.p);
+                        }
+                        want.p[want.n++] = ref.p[k];
+                    }
+                expect_pairs(&got, 0, &want, r);
+                kiln_pairs_free(&got);
+                free(want.p);
+            }
+            free(ref.p);
+        }
+        free(noisy);
+    }
+    /* the split of 35 bits at radius 4: 5 substrings of 7 bits */
+    unsigned start[KILN_NEARDUP_MAX_RADIUS + 1], len[KILN_NEARDUP_MAX_RADIUS + 1];
+    assert_int_equal(kiln_neardup_substrings_bits(4, 35, start, len), 5);
+    for (unsigned t = 0; t < 5; t++) {
+        assert_int_equal(len[t], 7);
+        assert_int_equal(start[t], 7 * t);
+    }
+    assert_int_equal(kiln_neardup_substrings_bits(5, 5, start, len), 0); /* radius >= nbits */
+    struct kiln_pairs got = {0};
+    struct kiln_err err = {0};
+    struct kiln_neardup_query q = {.hash = h, .n = N, .nbits = 0, .radius = 0};
+    assert_int_equal(kiln_neardup_search(&q, &got, &err), KILN_EINVAL);
+    q.nbits = 65;
+    assert_int_equal(kiln_neardup_search(&q, &got, &err), KILN_EINVAL);
+    free(side);
+    free(masked);
+    free(h);
+}
+
 /* Many interleaved clusters of equal and nearly equal hashes: 3 000 items drawn from 30
  * centres, so about 150 000 pairs arrive from many buckets and tables out of order and go
  * through the large-output sort. */
@@ -615,6 +685,7 @@ int main(void)
         cmocka_unit_test(test_substrings),
         cmocka_unit_test(test_random_planted),
         cmocka_unit_test(test_mask),
+        cmocka_unit_test(test_bits_and_sides),
         cmocka_unit_test(test_small_n),
         cmocka_unit_test(test_all_identical),
         cmocka_unit_test(test_many_clusters),

@@ -1,0 +1,276 @@
+/* Near-duplicate candidates, checks and the unit rule (nearlink.h). The searches are the exact
+ * multi-index searches of neardup.c; everything after them is sorting and union-find, so the
+ * result is a function of the fingerprints, labels and exact units alone. */
+#include "nearlink.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+#include "checked.h"
+#include "disjoint.h"
+#include "neardup.h"
+
+void kiln_nearlink_defaults(struct kiln_nearlink_params *p)
+{
+    p->radius_full = KILN_NEARLINK_RADIUS_FULL;
+    p->radius_centre = KILN_NEARLINK_RADIUS_CENTRE;
+    p->radius_turned = KILN_NEARLINK_RADIUS_TURNED;
+    p->max_pictures = KILN_NEARLINK_MAX_PICTURES;
+}
+
+void kiln_nearcands_free(struct kiln_nearcands *c)
+{
+    free(c->c);
+    c->c = NULL;
+    c->n = c->cap = 0;
+}
+
+static int push(struct kiln_nearcands *out, uint32_t a, uint32_t b, unsigned o, unsigned src)
+{
+    void *p = out->c;
+    if (!kiln_grow(&p, &out->cap, out->n + 1, sizeof *out->c))
+        return KILN_ENOMEM;
+    out->c = p;
+    out->c[out->n++] = (struct kiln_nearcand){a, b, (uint8_t)o, (uint8_t)src, 0, 0};
+    return KILN_OK;
+}
+
+static int cmp_cand(const void *x, const void *y)
+{
+    const struct kiln_nearcand *p = x, *q = y;
+    if (p->a != q->a)
+        return p->a < q->a ? -1 : 1;
+    if (p->b != q->b)
+        return p->b < q->b ? -1 : 1;
+    return (p->orientation > q->orientation) - (p->orientation < q->orientation);
+}
+
+/* One search; found pairs become candidates in orientation 1 (records are items). */
+static int search_plain(const uint64_t *h, const uint8_t *use, size_t n, unsigned nbits,
+                        unsigned radius, unsigned src, struct kiln_nearcands *out,
+                        struct kiln_err *err)
+{
+    struct kiln_pairs pairs = {NULL, 0, 0};
+    struct kiln_neardup_query q = {.hash = h, .use = use, .n = n, .nbits = nbits,
+                                   .radius = radius};
+    int rc = kiln_neardup_search(&q, &pairs, err);
+    for (size_t k = 0; k < pairs.n && !rc; k++)
+        if (push(out, pairs.pair[k][0], pairs.pair[k][1], 1, src))
+            rc = kiln_err_set(err, KILN_ENOMEM, "cannot grow the near-duplicate candidate list");
+    kiln_pairs_free(&pairs);
+    return rc;
+}
+
+int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
+                             const struct kiln_nearlink_params *p, struct kiln_nearcands *out,
+                             struct kiln_err *err)
+{
+    out->n = 0;
+    if (n >= (size_t)1 << 31)
+        return kiln_err_set(err, KILN_EINVAL, "too many pictures for the near-duplicate search");
+    if (n < 2)
+        return KILN_OK;
+    uint64_t *h = kiln_alloc_array(2 * n, sizeof *h);
+    uint8_t *use = kiln_alloc_array(2 * n, sizeof *use), *side = kiln_alloc_array(2 * n, 1);
+    int rc = KILN_OK;
+    if (!h || !use || !side) {
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the near-duplicate search");
+        goto done;
+    }
+    for (size_t i = 0; i < n; i++) {
+        use[i] = use[n + i] = !(fp[i].flags & KILN_NEARFP_LOWINFO);
+        side[i] = 0;
+        side[n + i] = 1;
+        h[i] = fp[i].hash;
+    }
+    rc = search_plain(h, use, n, KILN_NEARFP_HASH_BITS, p->radius_full, KILN_NEARCAND_FULL, out,
+                      err);
+    if (!rc) {
+        for (size_t i = 0; i < n; i++)
+            h[i] = fp[i].centre;
+        rc = search_plain(h, use, n, KILN_NEARFP_CENTRE_BITS, p->radius_centre,
+                          KILN_NEARCAND_CENTRE, out, err);
+    }
+    /* Turned: item i's own hash (records 0..n-1) against item j's hash as displayed under o
+     * (records n..2n-1). "i ~ j under o" is the same relation as "j ~ i under o's inverse",
+     * found in that orientation's pass, so only i < j is kept. */
+    for (unsigned o = 2; o <= 8 && !rc; o++) {
+        for (size_t i = 0; i < n; i++) {
+            h[i] = fp[i].hash;
+            h[n + i] = kiln_nearfp_orient_hash(fp[i].hash, o);
+        }
+        struct kiln_pairs pairs = {NULL, 0, 0};
+        struct kiln_neardup_query q = {.hash = h, .use = use, .side = side, .n = 2 * n,
+                                       .nbits = KILN_NEARFP_HASH_BITS,
+                                       .radius = p->radius_turned};
+        rc = kiln_neardup_search(&q, &pairs, err);
+        for (size_t k = 0; k < pairs.n && !rc; k++) {
+            uint32_t i = pairs.pair[k][0], j = (uint32_t)(pairs.pair[k][1] - n);
+            if (i < j && push(out, i, j, o, KILN_NEARCAND_TURNED))
+                rc = kiln_err_set(err, KILN_ENOMEM, "cannot grow the near-duplicate candidate list");
+        }
+        kiln_pairs_free(&pairs);
+    }
+    if (rc)
+        goto done;
+    qsort(out->c, out->n, sizeof *out->c, cmp_cand);
+    size_t m = 0;
+    for (size_t k = 0; k < out->n; k++) {
+        if (m && cmp_cand(&out->c[m - 1], &out->c[k]) == 0) {
+            out->c[m - 1].sources |= out->c[k].sources;
+            continue;
+        }
+        out->c[m++] = out->c[k];
+    }
+    out->n = m;
+    for (size_t k = 0; k < m; k++) {
+        struct kiln_nearcand *c = &out->c[k];
+        unsigned o = c->orientation;
+        uint64_t hb = kiln_nearfp_orient_hash(fp[c->b].hash, o),
+                 cb = kiln_nearfp_orient_hash(fp[c->b].centre, o);
+        c->distance = (uint8_t)__builtin_popcountll(fp[c->a].hash ^ hb);
+        c->centre_distance = (uint8_t)__builtin_popcountll(fp[c->a].centre ^ cb);
+    }
+done:
+    free(h);
+    free(use);
+    free(side);
+    if (rc)
+        out->n = 0;
+    return rc;
+}
+
+void kiln_nearlink_verify(const struct kiln_nearfp *fp, const struct kiln_nearcands *c,
+                          size_t from, size_t to, struct kiln_nearmatch *match)
+{
+    for (size_t k = from; k < to && k < c->n; k++)
+        kiln_nearfp_verify(&fp[c->c[k].a], &fp[c->c[k].b], c->c[k].orientation, &match[k]);
+}
+
+const char *kiln_nearlink_verdict_name(int v)
+{
+    static const char *const names[] = {"no match", "linked", "refused: different labels",
+                                        "refused: too many pictures"};
+    return v >= 0 && v <= KILN_NEARLINK_REFUSED_SIZE ? names[v] : "unknown";
+}
+
+/* Evidence order for the unit rule: stronger links are taken first. */
+struct ranked {
+    const struct kiln_nearcand *c;
+    const struct kiln_nearmatch *m;
+    size_t k;
+};
+
+static int cmp_ranked(const void *x, const void *y)
+{
+    const struct ranked *p = x, *q = y;
+    int32_t gp = kiln_nearmatch_global(p->m), gq = kiln_nearmatch_global(q->m),
+            lp = kiln_nearmatch_local(p->m), lq = kiln_nearmatch_local(q->m);
+    if (gp != gq)
+        return gp > gq ? -1 : 1;
+    if (lp != lq)
+        return lp > lq ? -1 : 1;
+    if (p->c->distance != q->c->distance)
+        return p->c->distance < q->c->distance ? -1 : 1;
+    return cmp_cand(p->c, q->c);
+}
+
+#define LABEL_NONE (-1)
+#define LABEL_MIXED (-2)
+
+/* The label set of a union, or LABEL_MIXED + conflict when two different labels would meet. */
+static int join_labels(int64_t x, int64_t y, int64_t *out)
+{
+    if (x == LABEL_NONE) {
+        *out = y;
+        return 0;
+    }
+    if (y == LABEL_NONE || (x == y && x != LABEL_MIXED)) {
+        *out = x;
+        return 0;
+    }
+    return 1; /* two labels, or a label and an already mixed unit */
+}
+
+int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
+                         const struct kiln_nearcands *c, const struct kiln_nearmatch *match,
+                         unsigned max_pictures, uint8_t *verdict, uint32_t *unit,
+                         struct kiln_err *err)
+{
+    if (n >= UINT32_MAX)
+        return kiln_err_set(err, KILN_EINVAL, "too many items for the unit rule");
+    for (size_t i = 0; i < n; i++)
+        if (exact[i] >= n)
+            return kiln_err_set(err, KILN_EINVAL, "exact unit %u of item %zu is out of range",
+                                exact[i], i);
+    for (size_t k = 0; k < c->n; k++)
+        if (c->c[k].a >= n || c->c[k].b >= n)
+            return kiln_err_set(err, KILN_EINVAL, "near-duplicate candidate %zu is out of range", k);
+    struct kiln_uf uf = {kiln_alloc_array(n ? n : 1, sizeof(uint32_t))};
+    uint32_t *first = kiln_alloc_array(n ? n : 1, sizeof *first), *pictures = NULL;
+    int64_t *labels = kiln_alloc_array(n ? n : 1, sizeof *labels);
+    struct ranked *r = kiln_alloc_array(c->n ? c->n : 1, sizeof *r);
+    pictures = kiln_alloc_array(n ? n : 1, sizeof *pictures);
+    int rc = KILN_OK;
+    if (!uf.parent || !first || !labels || !r || !pictures) {
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the unit rule for %zu items", n);
+        goto done;
+    }
+    for (size_t i = 0; i < n; i++) {
+        uf.parent[i] = (uint32_t)i;
+        first[i] = UINT32_MAX;
+    }
+    for (size_t i = 0; i < n; i++) {
+        if (first[exact[i]] == UINT32_MAX)
+            first[exact[i]] = (uint32_t)i;
+        else
+            kiln_uf_union(&uf, first[exact[i]], (uint32_t)i);
+    }
+    /* Per root: one picture (exact unit), and the labels its items carry. */
+    for (size_t i = 0; i < n; i++) {
+        pictures[i] = 0;
+        labels[i] = LABEL_NONE;
+    }
+    for (size_t i = 0; i < n; i++) {
+        uint32_t root = kiln_uf_find(&uf, (uint32_t)i);
+        pictures[root] = 1;
+        int64_t l = label[i] < 0 ? LABEL_NONE : label[i], j;
+        if (join_labels(labels[root], l, &j))
+            j = LABEL_MIXED;
+        labels[root] = j;
+    }
+    size_t nr = 0;
+    for (size_t k = 0; k < c->n; k++) {
+        verdict[k] = KILN_NEARLINK_UNCHECKED;
+        if (match[k].linked)
+            r[nr++] = (struct ranked){&c->c[k], &match[k], k};
+    }
+    qsort(r, nr, sizeof *r, cmp_ranked);
+    for (size_t t = 0; t < nr; t++) {
+        uint32_t x = kiln_uf_find(&uf, r[t].c->a), y = kiln_uf_find(&uf, r[t].c->b);
+        int64_t joined;
+        if (x == y) {
+            verdict[r[t].k] = KILN_NEARLINK_LINKED;
+        } else if (join_labels(labels[x], labels[y], &joined)) {
+            verdict[r[t].k] = KILN_NEARLINK_REFUSED_LABEL;
+        } else if (pictures[x] + pictures[y] > max_pictures) {
+            verdict[r[t].k] = KILN_NEARLINK_REFUSED_SIZE;
+        } else {
+            uint32_t sum = pictures[x] + pictures[y];
+            kiln_uf_union(&uf, x, y);
+            uint32_t root = kiln_uf_find(&uf, x);
+            pictures[root] = sum;
+            labels[root] = joined;
+            verdict[r[t].k] = KILN_NEARLINK_LINKED;
+        }
+    }
+    for (size_t i = 0; i < n; i++)
+        unit[i] = kiln_uf_find(&uf, (uint32_t)i);
+done:
+    free(uf.parent);
+    free(first);
+    free(labels);
+    free(pictures);
+    free(r);
+    return rc;
+}

@@ -1,0 +1,95 @@
+/* Near-duplicate links over a set of fingerprints (nearfp.h): candidate pairs from the hashes by
+ * multi-index search (neardup.h), the pixel check of each candidate, and the unit rule that
+ * decides which checked links may join units. docs/near-duplicates.md is the specification.
+ *
+ * Candidates come from three searches, low-information items taking no part:
+ *  1. full hashes within radius_full bits (the picture as it is);
+ *  2. centre hashes within radius_centre bits (a label, scale bar or crop at the border);
+ *  3. full hashes against the hashes of the other 7 orientations within radius_turned bits
+ *     (a picture rotated or mirrored in its pixels).
+ * Every candidate is then checked on pixels (kiln_nearfp_verify) before it can link anything.
+ *
+ * Unit rule. Items start in their exact units (same group, file bytes or decoded pixels; the
+ * caller says which, since those relations live in the catalogue). Checked links are taken in
+ * order of decreasing evidence (the global correlation that decided, then the detail
+ * correlation, then smaller hash distance, then item indices), and each joins the two units it connects
+ * unless the joined unit would (a) hold two different labels (or a label and a unit already
+ * holding several), or (b) hold more than max_pictures exact units. Such a link is refused, not
+ * silently dropped: it is reported with its reason, and the two units stay apart. This is the
+ * conservative direction for the split's integrity: a wrong merge of unrelated pictures can
+ * move whole classes out of a split, while a refused link between real copies is listed for
+ * the user to resolve (e.g. with a group). */
+#ifndef KILN_NEARLINK_H
+#define KILN_NEARLINK_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "err.h"
+#include "nearfp.h"
+
+#define KILN_NEARLINK_RADIUS_FULL 6
+#define KILN_NEARLINK_RADIUS_CENTRE 6
+#define KILN_NEARLINK_RADIUS_TURNED 4
+#define KILN_NEARLINK_MAX_PICTURES 8
+
+struct kiln_nearlink_params {
+    unsigned radius_full, radius_centre, radius_turned; /* see above; each at most 16 */
+    unsigned max_pictures; /* most exact units one unit may gather through near links; >= 2 */
+};
+
+/* The defaults above. */
+void kiln_nearlink_defaults(struct kiln_nearlink_params *p);
+
+enum kiln_nearcand_source {
+    KILN_NEARCAND_FULL = 1,
+    KILN_NEARCAND_CENTRE = 2,
+    KILN_NEARCAND_TURNED = 4
+};
+
+/* A candidate: item b as displayed under orientation (1-8) may be a copy of item a. */
+struct kiln_nearcand {
+    uint32_t a, b; /* a < b */
+    uint8_t orientation;
+    uint8_t sources;         /* enum kiln_nearcand_source bits: which searches found it */
+    uint8_t distance;        /* full-hash Hamming distance in that orientation */
+    uint8_t centre_distance; /* centre-hash distance in that orientation */
+};
+
+struct kiln_nearcands {
+    struct kiln_nearcand *c;
+    size_t n, cap;
+};
+
+void kiln_nearcands_free(struct kiln_nearcands *c);
+
+/* Finds the candidates among fp[0..n-1] into out (emptied first), sorted by (a, b,
+ * orientation), each once. Errors: KILN_EINVAL (bad radius, n >= 2^31), KILN_ENOMEM. */
+int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
+                             const struct kiln_nearlink_params *p, struct kiln_nearcands *out,
+                             struct kiln_err *err);
+
+/* Checks candidates [from, to) on pixels into match[from..to-1]. Independent per candidate,
+ * so callers may share the range out among threads; the results do not depend on how. */
+void kiln_nearlink_verify(const struct kiln_nearfp *fp, const struct kiln_nearcands *c,
+                          size_t from, size_t to, struct kiln_nearmatch *match);
+
+enum kiln_nearlink_verdict {
+    KILN_NEARLINK_UNCHECKED = 0, /* failed the pixel check: not a link */
+    KILN_NEARLINK_LINKED,        /* joins (or was already inside) one unit */
+    KILN_NEARLINK_REFUSED_LABEL, /* checked, but would join different labels */
+    KILN_NEARLINK_REFUSED_SIZE   /* checked, but would gather more than max_pictures */
+};
+const char *kiln_nearlink_verdict_name(int v); /* "no match", "linked", ... */
+
+/* The unit rule. n items; exact[i] is item i's exact unit (any ids below n; items of one exact
+ * unit share it); label[i] is its class (-1: none). c and match as from the functions above.
+ * Writes verdict[k] for every candidate and unit[i] = the smallest item index of item i's unit
+ * (exact units joined by the accepted links). Errors: KILN_EINVAL (an id out of range),
+ * KILN_ENOMEM. */
+int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
+                         const struct kiln_nearcands *c, const struct kiln_nearmatch *match,
+                         unsigned max_pictures, uint8_t *verdict, uint32_t *unit,
+                         struct kiln_err *err);
+
+#endif
