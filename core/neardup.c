@@ -52,8 +52,11 @@ struct scan {
     const uint64_t *hash;  /* hashes in this table's bucket order */
     const uint32_t *index; /* their item indices; ascending within a bucket (stable sort) */
     const uint8_t *side;   /* NULL, or only pairs of items on different sides are wanted */
+    const uint64_t *filter; /* NULL, or pairs must also be this close in filter values */
+    unsigned filter_radius;
     const uint64_t *mask;  /* mask[s] selects substring s's bits */
-    unsigned table;        /* t: pairs agreeing on a substring s < t were reported earlier */
+    unsigned table;        /* t: pairs close on a substring s < t were reported earlier */
+    unsigned sub;          /* q: "close on a substring" means within q bits there */
     unsigned radius;
     struct kiln_pairs *out;
 };
@@ -76,9 +79,12 @@ __attribute__((noinline)) static int scan_emit(const struct scan *sc, size_t a, 
 {
     uint64_t d = sc->hash[a] ^ sc->hash[b];
     for (unsigned s = 0; s < sc->table; s++)
-        if ((d & sc->mask[s]) == 0)
+        if ((unsigned)__builtin_popcountll(d & sc->mask[s]) <= sc->sub)
             return KILN_OK; /* table s found it */
     if (sc->side && sc->side[sc->index[a]] == sc->side[sc->index[b]])
+        return KILN_OK;
+    if (sc->filter && (unsigned)__builtin_popcountll(sc->filter[sc->index[a]] ^
+                                                     sc->filter[sc->index[b]]) > sc->filter_radius)
         return KILN_OK;
     assert(sc->index[a] < sc->index[b]);
     return push_pair(sc->out, sc->index[a], sc->index[b]);
@@ -119,6 +125,87 @@ __attribute__((target("popcnt"))) static int scan_bucket_popcnt(const struct sca
     return scan_bucket_body(sc, begin, end);
 }
 #endif
+
+/* Probing form (sub-radius q >= 1, Norouzi et al.'s multi-index hashing proper): record a, of
+ * substring value v, is compared with every record in the buckets of the values within q bits
+ * of v (ball lists the XOR masks, in[] the bucket offsets); each unordered pair is met from both
+ * ends, so it is taken from the end with the smaller item index. */
+static inline __attribute__((always_inline)) int probe_body(const struct scan *sc, size_t nu,
+                                                            unsigned low, const uint32_t *ball,
+                                                            size_t nball, const uint32_t *in)
+{
+    const uint64_t *h = sc->hash, tmask = sc->mask[sc->table];
+    const uint32_t *idx = sc->index;
+    unsigned r = sc->radius;
+    for (size_t a = 0; a < nu; a++) {
+        uint64_t x = h[a];
+        uint32_t v = (uint32_t)((x & tmask) >> low), ia = idx[a];
+        for (size_t k = 0; k < nball; k++) {
+            uint32_t w = v ^ ball[k];
+            for (uint32_t b = in[w]; b < in[w + 1]; b++)
+                if (idx[b] > ia && (unsigned)__builtin_popcountll(x ^ h[b]) <= r) {
+                    int rc = scan_emit(sc, a, b);
+                    if (rc)
+                        return rc;
+                }
+        }
+    }
+    return KILN_OK;
+}
+
+static int probe_table(const struct scan *sc, size_t nu, unsigned low, const uint32_t *ball,
+                       size_t nball, const uint32_t *in)
+{
+    return probe_body(sc, nu, low, ball, nball, in);
+}
+
+#ifdef HAVE_POPCNT_SCAN
+__attribute__((target("popcnt"))) static int probe_table_popcnt(const struct scan *sc, size_t nu,
+                                                                unsigned low, const uint32_t *ball,
+                                                                size_t nball, const uint32_t *in)
+{
+    return probe_body(sc, nu, low, ball, nball, in);
+}
+#endif
+
+/* Substrings for m tables: as kiln_neardup_substrings_bits, for any m from 1 to nbits. */
+static void split_bits(unsigned m, unsigned nbits, unsigned *start, unsigned *len)
+{
+    unsigned q = nbits / m, e = nbits % m;
+    for (unsigned t = 0; t < m; t++) {
+        start[t] = t * q + (t < e ? t : e);
+        len[t] = q + (t < e);
+    }
+}
+
+/* The number of tables m (and so the sub-radius q = radius / m) with the least estimated work:
+ * m tables, each record probing the sum_{k <= q} C(len, k) buckets within q bits of its
+ * substring, each holding about nu / 2^len records. Substrings of more than PROBE_MAX_BITS
+ * are not indexed by value (the offset table would be too large), so they are not chosen
+ * unless q = 0, the bucket-scan form. The choice changes speed only: every form finds exactly
+ * the pairs within the radius. */
+#define PROBE_MAX_BITS 20
+static unsigned choose_tables(size_t nu, unsigned nbits, unsigned radius)
+{
+    unsigned best = radius + 1;
+    double best_cost = -1;
+    for (unsigned m = 1; m <= radius + 1; m++) {
+        unsigned q = radius / m, len = (nbits + m - 1) / m, lmin = nbits / m;
+        if (q > 0 && len > PROBE_MAX_BITS)
+            continue;
+        double ballsize = 0, c = 1;
+        for (unsigned k = 0; k <= q; k++) {
+            ballsize += c;
+            c = c * (double)(len - k) / (double)(k + 1);
+        }
+        double cost = (double)m * (double)nu * ballsize * ((double)nu / (double)(UINT64_C(1) << lmin) + (q ? 4.0 : 0.0));
+        if (best_cost < 0 || cost < best_cost) {
+            best_cost = cost;
+            best = m;
+        }
+    }
+    return best;
+}
 
 /* One stable counting-sort pass on the digit (h >> shift) & (2^width - 1). */
 static void sort_pass(const uint64_t *hs, const uint32_t *is, uint64_t *hd, uint32_t *id,
@@ -232,7 +319,9 @@ int kiln_neardup_search(const struct kiln_neardup_query *query, struct kiln_pair
     unsigned start[MAX_TABLES], len[MAX_TABLES];
     uint64_t mask[MAX_TABLES];
     const uint64_t used = nbits == 64 ? UINT64_MAX : ~(UINT64_MAX >> nbits);
-    unsigned m = kiln_neardup_substrings_bits(radius, nbits, start, len), maxlen = 0;
+    const unsigned m = choose_tables(nu, nbits, radius), sub = radius / m;
+    unsigned maxlen = 0;
+    split_bits(m, nbits, start, len);
     for (unsigned t = 0; t < m; t++) {
         unsigned low = 64 - start[t] - len[t]; /* bit position of the substring's last bit */
         mask[t] = (len[t] == 64 ? UINT64_MAX : (UINT64_C(1) << len[t]) - 1) << low;
@@ -250,9 +339,20 @@ int kiln_neardup_search(const struct kiln_neardup_query *query, struct kiln_pair
     uint64_t *hb = multipass ? kiln_alloc_array(nu, sizeof *hb) : NULL;
     uint32_t *ib = multipass ? kiln_alloc_array(nu, sizeof *ib) : NULL;
     size_t *count = kiln_alloc_array(((size_t)1 << cbits) + 1, sizeof *count);
+    /* probing form: bucket offsets by value, and the XOR masks of weight <= sub */
+    uint32_t *in = NULL, *ball = NULL;
+    size_t nball = 0;
+    if (sub > 0) {
+        in = kiln_alloc_array(((size_t)1 << maxlen) + 1, sizeof *in);
+        size_t cap = 0;
+        for (uint32_t v = 0; v < (UINT32_C(1) << maxlen); v++)
+            cap += (unsigned)__builtin_popcount(v) <= sub;
+        ball = kiln_alloc_array(cap, sizeof *ball);
+    }
     size_t n0 = out->n;
     int rc = KILN_OK;
-    if (!h0 || !i0 || !ha || !ia || (multipass && (!hb || !ib)) || !count) {
+    if (!h0 || !i0 || !ha || !ia || (multipass && (!hb || !ib)) || !count ||
+        (sub > 0 && (!in || !ball))) {
         rc = kiln_err_set(err, KILN_ENOMEM,
                           "cannot allocate the near-duplicate index for %zu hashes", nu);
         goto done;
@@ -264,9 +364,13 @@ int kiln_neardup_search(const struct kiln_neardup_query *query, struct kiln_pair
         }
 
     int (*scan_fn)(const struct scan *, size_t, size_t) = scan_bucket;
+    int (*probe_fn)(const struct scan *, size_t, unsigned, const uint32_t *, size_t,
+                    const uint32_t *) = probe_table;
 #ifdef HAVE_POPCNT_SCAN
-    if (__builtin_cpu_supports("popcnt"))
+    if (__builtin_cpu_supports("popcnt")) {
         scan_fn = scan_bucket_popcnt;
+        probe_fn = probe_table_popcnt;
+    }
 #endif
 
     for (unsigned t = 0; t < m && rc == KILN_OK; t++) {
@@ -286,13 +390,28 @@ int kiln_neardup_search(const struct kiln_neardup_query *query, struct kiln_pair
             id = id == ia ? ib : ia;
         }
 
-        struct scan sc = {.hash = hs, .index = is, .side = query->side, .mask = mask,
-                          .table = t, .radius = radius, .out = out};
-        for (size_t b = 0, e; b < nu && rc == KILN_OK; b = e) {
-            for (e = b + 1; e < nu && ((hs[e] ^ hs[b]) & mask[t]) == 0; e++)
-                ;
-            if (e - b >= 2)
-                rc = scan_fn(&sc, b, e);
+        struct scan sc = {.hash = hs, .index = is, .side = query->side,
+                          .filter = query->filter, .filter_radius = query->filter_radius,
+                          .mask = mask, .table = t, .sub = sub, .radius = radius, .out = out};
+        if (sub == 0) {
+            for (size_t b = 0, e; b < nu && rc == KILN_OK; b = e) {
+                for (e = b + 1; e < nu && ((hs[e] ^ hs[b]) & mask[t]) == 0; e++)
+                    ;
+                if (e - b >= 2)
+                    rc = scan_fn(&sc, b, e);
+            }
+        } else {
+            const uint32_t nv = UINT32_C(1) << len[t];
+            nball = 0;
+            for (uint32_t v = 0; v < nv; v++)
+                if ((unsigned)__builtin_popcount(v) <= sub)
+                    ball[nball++] = v;
+            memset(in, 0, ((size_t)nv + 1) * sizeof *in);
+            for (size_t a = 0; a < nu; a++)
+                in[((hs[a] & mask[t]) >> low) + 1]++;
+            for (uint32_t v = 0; v < nv; v++)
+                in[v + 1] += in[v];
+            rc = probe_fn(&sc, nu, low, ball, nball, in);
         }
         if (rc)
             rc = kiln_err_set(err, rc, "cannot grow the near-duplicate pair list past %zu pairs",
@@ -310,6 +429,8 @@ done:
     free(hb);
     free(ib);
     free(count);
+    free(in);
+    free(ball);
     return rc;
 }
 

@@ -4,29 +4,34 @@
  * the near-duplicate rule of the split (docs/split.md, section 2 item 4) through struct
  * kiln_pairs (units.h).
  *
- * Method. The 64 bits are cut into m = radius + 1 contiguous substrings, numbered t = 0..m-1
- * from the most significant bit (the first bit of a difference hash, docs/split.md section 7).
- * With 64 = q*m + e (0 <= e < m), substrings 0..e-1 have q + 1 bits and e..m-1 have q bits, so
- * substring t starts at bit offset t*q + min(t, e) counted from the most significant bit
- * (kiln_neardup_substrings returns the table). Two hashes within distance radius differ in at
- * most radius substrings, so by the pigeonhole principle they agree exactly on at least one of
- * the m substrings. One table at a time, the items are counting-sorted by the value of substring
- * t; inside each bucket of equal values every pair is verified with a popcount of the XOR. A
- * pair is reported only by the first table where it agrees (the smallest t with equal substring
- * t), so no memory is needed to remove duplicates. The result is sorted by (i, j).
+ * Method. The nbits bits (64 for difference hashes) are cut into m contiguous substrings,
+ * numbered t = 0..m-1 from the most significant bit (the first bit of a difference hash,
+ * docs/split.md section 7). With nbits = q*m + e (0 <= e < m), substrings 0..e-1 have q + 1
+ * bits and e..m-1 have q bits, so substring t starts at bit offset t*q + min(t, e) counted from
+ * the most significant bit. Two hashes within distance radius differ in at most radius bits, so
+ * by the pigeonhole principle they are within s = radius / m (rounded down) bits of each other on
+ * at least one of the m substrings. One table at a time, the items are counting-sorted by the
+ * value of substring t. With s = 0 (m = radius + 1, kiln_neardup_substrings's table) every
+ * bucket of equal values is checked pair by pair with a popcount of the XOR; with s >= 1 (fewer,
+ * longer substrings: "multi-index hashing" proper) each item is compared with the items of the
+ * buckets whose values lie within s bits of its own. A pair is reported only by the first table
+ * where its substrings are within s bits, so no memory is needed to remove duplicates. The
+ * result is sorted by (i, j) and is the same whatever m is: m is chosen (choose_tables in
+ * neardup.c) to make the estimated number of comparisons smallest, substrings of more than 20
+ * bits being excluded for s >= 1 (the table of bucket offsets has 2^len entries).
  *
- * Cost. Sorting is O(m n) time; verification is the sum over buckets of k(k-1)/2 comparisons,
- * which for uniformly random hashes is about n^2/2 * sum_t 2^-len_t (len_t = bits of substring
- * t): n^2/32 768 at radius 3, n^2/158 at the default radius 6, n^2/10 at radius 10, n^2/2 (as
- * many as brute force) at radius 15 and n^2/1.5 at radius 16. So it is linear only while
- * buckets stay small (n up to about 2^len_t) and otherwise a fixed fraction of brute force,
- * which shrinks quickly as the radius falls. A cluster of k identical hashes is one bucket in
- * every table and yields k(k-1)/2 pairs: that output is inherent in listing every pair, and it
- * costs m times as many comparisons (each table sees the cluster; only table 0 reports it).
- * Memory is O(n) working space (about 24 bytes per participating item, 36 at radius 0..2) plus
- * the output, which is 8 bytes a pair, grown by doubling, and for 4 096 pairs or more briefly
- * doubled again by the buffer of the final sort (if that buffer cannot be had, an in-place sort
- * is used instead). */
+ * Cost. Sorting is O(m n) time. With s = 0 the checks are the sum over buckets of k(k-1)/2
+ * comparisons, for uniformly random 64-bit hashes about n^2/2 * sum_t 2^-len_t: n^2/32 768 at
+ * radius 3, n^2/158 at radius 6, n^2/10 at radius 10. With s >= 1 each item probes
+ * sum_{k <= s} C(len, k) buckets of about n / 2^len items: at n = 10^6 and radius 6, four
+ * 16-bit tables with s = 1 make about 1.3 * 10^9 comparisons where seven 9-bit tables make
+ * 6.3 * 10^9. Either way the work grows with n^2 / 2^len and is near-linear only while buckets
+ * stay small; clustered hashes (similar pictures) make some buckets large. A cluster of k
+ * identical hashes yields k(k-1)/2 pairs: that output is inherent in listing every pair.
+ * Memory is O(n) working space (about 24 bytes per participating item, 36 with substrings of
+ * more than 16 bits) plus 4 * 2^len bytes of bucket offsets when s >= 1, plus the output, which
+ * is 8 bytes a pair, grown by doubling, and for 4 096 pairs or more briefly doubled again by the
+ * buffer of the final sort (if that buffer cannot be had, an in-place sort is used instead). */
 #ifndef KILN_NEARDUP_H
 #define KILN_NEARDUP_H
 
@@ -76,13 +81,18 @@ int kiln_neardup_links(const uint64_t *hash, const uint8_t *use, size_t n, unsig
  * in its most significant bits; the bits below are ignored. The substrings of the method are cut
  * from those nbits bits (kiln_neardup_substrings_bits). use as in kiln_neardup_pairs_masked. side
  * NULL: every pair within the radius; otherwise only pairs with side[i] != side[j] (a join of
- * two sets placed in one array, e.g. hashes against the hashes of rotated pictures). Pairs are
+ * two sets placed in one array, e.g. hashes against the hashes of rotated pictures). filter:
+ * see the struct. Pairs are
  * (i, j), i < j, sorted, each once, appended to out as kiln_neardup_pairs does. Errors: those of
  * kiln_neardup_pairs_masked, and KILN_EINVAL when nbits is 0, above 64 or not above radius. */
 struct kiln_neardup_query {
     const uint64_t *hash;
     const uint8_t *use;  /* NULL: every item takes part */
     const uint8_t *side; /* NULL: all pairs; else only pairs across sides */
+    /* NULL, or a second 64-bit value per item: a pair is reported only if these also differ
+     * in at most filter_radius bits (a coarse hash searched, a fine one confirming) */
+    const uint64_t *filter;
+    unsigned filter_radius;
     size_t n;
     unsigned nbits;  /* 1..64 */
     unsigned radius; /* 0..KILN_NEARDUP_MAX_RADIUS, below nbits */
@@ -90,7 +100,7 @@ struct kiln_neardup_query {
 int kiln_neardup_search(const struct kiln_neardup_query *q, struct kiln_pairs *out,
                         struct kiln_err *err);
 
-/* The substring split used for radius (see the comment at the top): fills start[t] (bit offset
+/* The substring split for m = radius + 1 tables (see the comment at the top): fills start[t] (bit offset
  * from the most significant bit, 0..63) and len[t] (bits) for t = 0..m-1 and returns
  * m = radius + 1; returns 0 and writes nothing when radius > KILN_NEARDUP_MAX_RADIUS. Either
  * array may be NULL; otherwise it must hold KILN_NEARDUP_MAX_RADIUS + 1 entries. */

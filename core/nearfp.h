@@ -98,6 +98,7 @@ static inline int32_t kiln_nearmatch_local(const struct kiln_nearmatch *m)
 /* Thresholds of the pixel check, in thousandths. */
 #define KILN_NEARFP_MIN_GLOBAL 930       /* global(_trim) */
 #define KILN_NEARFP_MIN_LOCAL 700        /* local(_trim), orientation 1 */
+#define KILN_NEARFP_MIN_LOCAL_ALIGNED 750 /* the same after a crop alignment */
 #define KILN_NEARFP_MIN_LOCAL_TURNED 950 /* local, orientations 2-8 */
 #define KILN_NEARFP_MIN_HUE 950          /* hue (cosine, about 18 degrees) */
 #define KILN_NEARFP_MIN_SEARCH 500       /* global, as they are, before crops are tried */

@@ -15,7 +15,19 @@ void kiln_nearlink_defaults(struct kiln_nearlink_params *p)
     p->radius_full = KILN_NEARLINK_RADIUS_FULL;
     p->radius_centre = KILN_NEARLINK_RADIUS_CENTRE;
     p->radius_turned = KILN_NEARLINK_RADIUS_TURNED;
+    p->radius_coarse = KILN_NEARLINK_RADIUS_COARSE;
+    p->coarse_confirm = KILN_NEARLINK_COARSE_CONFIRM;
     p->max_pictures = KILN_NEARLINK_MAX_PICTURES;
+}
+
+uint64_t kiln_nearlink_coarse(uint64_t hash)
+{
+    uint64_t out = 0;
+    for (unsigned v = 0; v < 6; v++)
+        for (unsigned u = 0; u < 6; u++)
+            if (u || v)
+                out |= (hash >> (64 - (8 * v + u)) & 1) << (64 - (6 * v + u));
+    return out;
 }
 
 void kiln_nearcands_free(struct kiln_nearcands *c)
@@ -47,11 +59,12 @@ static int cmp_cand(const void *x, const void *y)
 
 /* One search; found pairs become candidates in orientation 1 (records are items). */
 static int search_plain(const uint64_t *h, const uint8_t *use, size_t n, unsigned nbits,
-                        unsigned radius, unsigned src, struct kiln_nearcands *out,
-                        struct kiln_err *err)
+                        unsigned radius, const uint64_t *confirm, unsigned confirm_radius,
+                        unsigned src, struct kiln_nearcands *out, struct kiln_err *err)
 {
     struct kiln_pairs pairs = {NULL, 0, 0};
-    struct kiln_neardup_query q = {.hash = h, .use = use, .n = n, .nbits = nbits,
+    struct kiln_neardup_query q = {.hash = h, .use = use, .filter = confirm,
+                                   .filter_radius = confirm_radius, .n = n, .nbits = nbits,
                                    .radius = radius};
     int rc = kiln_neardup_search(&q, &pairs, err);
     for (size_t k = 0; k < pairs.n && !rc; k++)
@@ -70,10 +83,10 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
         return kiln_err_set(err, KILN_EINVAL, "too many pictures for the near-duplicate search");
     if (n < 2)
         return KILN_OK;
-    uint64_t *h = kiln_alloc_array(2 * n, sizeof *h);
+    uint64_t *h = kiln_alloc_array(2 * n, sizeof *h), *full = kiln_alloc_array(n, sizeof *full);
     uint8_t *use = kiln_alloc_array(2 * n, sizeof *use), *side = kiln_alloc_array(2 * n, 1);
     int rc = KILN_OK;
-    if (!h || !use || !side) {
+    if (!h || !full || !use || !side) {
         rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the near-duplicate search");
         goto done;
     }
@@ -81,15 +94,21 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
         use[i] = use[n + i] = !(fp[i].flags & KILN_NEARFP_LOWINFO);
         side[i] = 0;
         side[n + i] = 1;
-        h[i] = fp[i].hash;
+        h[i] = full[i] = fp[i].hash;
     }
-    rc = search_plain(h, use, n, KILN_NEARFP_HASH_BITS, p->radius_full, KILN_NEARCAND_FULL, out,
-                      err);
+    rc = search_plain(h, use, n, KILN_NEARFP_HASH_BITS, p->radius_full, NULL, 0,
+                      KILN_NEARCAND_FULL, out, err);
     if (!rc) {
         for (size_t i = 0; i < n; i++)
             h[i] = fp[i].centre;
-        rc = search_plain(h, use, n, KILN_NEARFP_CENTRE_BITS, p->radius_centre,
+        rc = search_plain(h, use, n, KILN_NEARFP_CENTRE_BITS, p->radius_centre, NULL, 0,
                           KILN_NEARCAND_CENTRE, out, err);
+    }
+    for (int centre = 0; centre <= 1 && !rc; centre++) {
+        for (size_t i = 0; i < n; i++)
+            h[i] = kiln_nearlink_coarse(centre ? fp[i].centre : fp[i].hash);
+        rc = search_plain(h, use, n, 35, p->radius_coarse, full, p->coarse_confirm,
+                          centre ? KILN_NEARCAND_COARSE_CENTRE : KILN_NEARCAND_COARSE, out, err);
     }
     /* Turned: item i's own hash (records 0..n-1) against item j's hash as displayed under o
      * (records n..2n-1). "i ~ j under o" is the same relation as "j ~ i under o's inverse",
@@ -133,6 +152,7 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
     }
 done:
     free(h);
+    free(full);
     free(use);
     free(side);
     if (rc)

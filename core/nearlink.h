@@ -2,11 +2,14 @@
  * multi-index search (neardup.h), the pixel check of each candidate, and the unit rule that
  * decides which checked links may join units. docs/near-duplicates.md is the specification.
  *
- * Candidates come from three searches, low-information items taking no part:
+ * Candidates come from five searches, low-information items taking no part:
  *  1. full hashes within radius_full bits (the picture as it is);
- *  2. centre hashes within radius_centre bits (a label, scale bar or crop at the border);
+ *  2. centre hashes within radius_centre bits (a label or scale bar at the border);
  *  3. full hashes against the hashes of the other 7 orientations within radius_turned bits
- *     (a picture rotated or mirrored in its pixels).
+ *     (a picture rotated or mirrored in its pixels);
+ *  4./5. the coarse hashes (the 35 bits of the 6x6 lowest frequencies, which a crop or a small
+ *     rotation moves less) of the whole picture and of its centre within radius_coarse bits,
+ *     confirmed by full hashes within coarse_confirm bits (a crop or a slight rotation).
  * Every candidate is then checked on pixels (kiln_nearfp_verify) before it can link anything.
  *
  * Unit rule. Items start in their exact units (same group, file bytes or decoded pixels; the
@@ -31,10 +34,13 @@
 #define KILN_NEARLINK_RADIUS_FULL 6
 #define KILN_NEARLINK_RADIUS_CENTRE 6
 #define KILN_NEARLINK_RADIUS_TURNED 4
+#define KILN_NEARLINK_RADIUS_COARSE 4
+#define KILN_NEARLINK_COARSE_CONFIRM 18
 #define KILN_NEARLINK_MAX_PICTURES 8
 
 struct kiln_nearlink_params {
-    unsigned radius_full, radius_centre, radius_turned; /* see above; each at most 16 */
+    unsigned radius_full, radius_centre, radius_turned, radius_coarse; /* each at most 16 */
+    unsigned coarse_confirm; /* full-hash distance a coarse candidate must also be within */
     unsigned max_pictures; /* most exact units one unit may gather through near links; >= 2 */
 };
 
@@ -44,8 +50,13 @@ void kiln_nearlink_defaults(struct kiln_nearlink_params *p);
 enum kiln_nearcand_source {
     KILN_NEARCAND_FULL = 1,
     KILN_NEARCAND_CENTRE = 2,
-    KILN_NEARCAND_TURNED = 4
+    KILN_NEARCAND_TURNED = 4,
+    KILN_NEARCAND_COARSE = 8,
+    KILN_NEARCAND_COARSE_CENTRE = 16
 };
+
+/* The coarse hash: bits (v, u), u, v < 6, of a 63-bit hash, moved to bit 64 - (6v + u). */
+uint64_t kiln_nearlink_coarse(uint64_t hash);
 
 /* A candidate: item b as displayed under orientation (1-8) may be a copy of item a. */
 struct kiln_nearcand {

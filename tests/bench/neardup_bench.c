@@ -1,8 +1,9 @@
 /* Benchmark (not a test) for the near-duplicate search: 10^6 fixed-seed hashes, mostly uniform
  * random with about 1% planted near duplicates, searched on one thread at radius 6 (kiln's
  * default), 3 and 10. Prints the median wall time of the runs, the pair count, the number of
- * comparisons the method makes on uniform data (the n^2/2 * sum 2^-len estimate of neardup.h),
- * and the process's peak resident memory.
+ * comparisons the bucket-scan form (radius + 1 tables) would make on uniform data (the
+ * n^2/2 * sum 2^-len estimate of neardup.h; the search may choose fewer, longer tables, which
+ * make fewer), and the process's peak resident memory.
  *
  *     kiln-bench-neardup [-n COUNT] [-k RUNS] [RADIUS...]      (defaults: 1000000, 5, 6 3 10)
  */
@@ -110,9 +111,9 @@ int main(int argc, char **argv)
         qsort(t_run, (size_t)runs, sizeof *t_run, cmp_double);
         struct rusage ru;
         getrusage(RUSAGE_SELF, &ru);
-        printf("radius %2u: %u tables, median %.3f s (min %.3f, max %.3f), %zu pairs, "
-               "~%.3g comparisons, peak RSS %ld MiB\n",
-               r, m, t_run[runs / 2], t_run[0], t_run[runs - 1], npairs,
+        printf("radius %2u: median %.3f s (min %.3f, max %.3f), %zu pairs; bucket scan of %u "
+               "tables: ~%.3g comparisons; peak RSS %ld MiB\n",
+               r, t_run[runs / 2], t_run[0], t_run[runs - 1], npairs, m,
                (double)n * (double)(n - 1) / 2 * frac, ru.ru_maxrss / 1024);
         fflush(stdout);
     }
