@@ -601,7 +601,12 @@ static int32_t ncc_q20(const int32_t *a, const int32_t *b, const uint8_t *mask)
     uint64_t da = isqrt128((unsigned __int128)va), db = isqrt128((unsigned __int128)vb);
     if (da == 0 || db == 0)
         return 0;
-    __int128 r = cov * Q20 / ((__int128)da * db);
+    __int128 r;
+    if (cov < ((__int128)1 << 42) && cov > -((__int128)1 << 42) && da < (UINT64_C(1) << 31) &&
+        db < (UINT64_C(1) << 31))
+        r = (int64_t)cov * Q20 / (int64_t)(da * db); /* the same quotient, in 64 bits */
+    else
+        r = cov * Q20 / ((__int128)da * db);
     return (int32_t)(r > Q20 ? Q20 : r < -Q20 ? -Q20 : r);
 }
 
@@ -646,14 +651,6 @@ struct cellres {
     int index;
 };
 
-static int cmp_res(const void *x, const void *y)
-{
-    const struct cellres *a = x, *b = y;
-    if (a->r != b->r)
-        return a->r < b->r ? 1 : -1; /* largest first */
-    return (a->index > b->index) - (a->index < b->index);
-}
-
 /* Whether the kept cells hold at least a quarter of v's variation (sum of squared deviations
  * from the mean): trimming is meant to drop a label or a corner, not the picture. */
 static int keeps_content(const int32_t *v, const uint8_t *keep)
@@ -689,16 +686,27 @@ static void measure(const int32_t *a, const int32_t *b, struct kiln_nearmatch *m
     }
     const int64_t da = (int64_t)isqrt64((uint64_t)(NCELL * saa - sa * sa)),
                   db = (int64_t)isqrt64((uint64_t)(NCELL * sbb - sb * sb));
-    struct cellres res[NCELL];
+    /* The first TRIM cells in the order (residual descending, index ascending), kept in that
+     * order by insertion; a cell displaces the last only when its residual is strictly larger,
+     * since on equal residuals the earlier index comes first. */
+    struct cellres top[TRIM];
+    int ntop = 0;
     for (int i = 0; i < NCELL; i++) {
         int64_t z = (NCELL * a[i] - sa) * db - (NCELL * b[i] - sb) * da;
-        res[i] = (struct cellres){(uint64_t)(z < 0 ? -z : z), i};
+        uint64_t r = (uint64_t)(z < 0 ? -z : z);
+        if (ntop == TRIM && r <= top[TRIM - 1].r)
+            continue;
+        int k = ntop < TRIM ? ntop++ : TRIM - 1;
+        while (k > 0 && top[k - 1].r < r) {
+            top[k] = top[k - 1];
+            k--;
+        }
+        top[k] = (struct cellres){r, i};
     }
-    qsort(res, NCELL, sizeof *res, cmp_res);
     uint8_t keep[NCELL], inner[NCELL];
     memset(keep, 1, sizeof keep);
-    for (int k = 0; k < TRIM; k++)
-        keep[res[k].index] = 0;
+    for (int k = 0; k < ntop; k++)
+        keep[top[k].index] = 0;
     m->global_trim = ncc_q20(a, b, keep);
     m->trim_ok = (uint8_t)(keeps_content(a, keep) || keeps_content(b, keep));
     /* Detail is compared only where a cell and all its neighbours were kept. */
@@ -740,7 +748,7 @@ static int passes(struct kiln_nearmatch *m, unsigned o, int aligned)
 }
 
 void kiln_nearfp_verify(const struct kiln_nearfp *a, const struct kiln_nearfp *b, unsigned o,
-                        struct kiln_nearmatch *out)
+                        unsigned gate, struct kiln_nearmatch *out)
 {
     memset(out, 0, sizeof *out);
     if (o < 1 || o > 8)
@@ -758,6 +766,11 @@ void kiln_nearfp_verify(const struct kiln_nearfp *a, const struct kiln_nearfp *b
     for (int i = 0; i < NCELL; i++) {
         va[i] = 16 * a->thumb[i];
         vb[i] = 16 * bt[i];
+    }
+    if (gate) {
+        out->global = ncc_q20(va, vb, NULL);
+        if (1000 * (int64_t)out->global < (int64_t)gate * Q20)
+            return;
     }
     measure(va, vb, out);
     if (passes(out, o, 0)) {

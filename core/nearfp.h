@@ -103,14 +103,17 @@ static inline int32_t kiln_nearmatch_local(const struct kiln_nearmatch *m)
 #define KILN_NEARFP_MIN_HUE 950          /* hue (cosine, about 18 degrees) */
 #define KILN_NEARFP_MIN_SEARCH 500       /* global, as they are, before crops are tried */
 
-/* The pixel check (docs/near-duplicates.md, "Verification"): hue first (pairs of colour
- * pictures), then the pictures as they are; if that fails but their global correlation is at
- * least KILN_NEARFP_MIN_SEARCH, one crop alignment per way round (each axis scaled by 1, 0.95
- * or 0.9 at one of three offsets, chosen on column and row sums) and the better of the two is
- * checked instead. A pair of which either picture is low-information never passes. Pure
- * function of its arguments. */
+/* The pixel check (docs/near-duplicates.md, "Pixel check"): hue first (pairs of colour
+ * pictures); then, when gate is not 0, the global correlation of the pictures as they are must
+ * reach gate thousandths or the pair fails at once (nearlink.c asks this of candidates that only
+ * the coarse searches found: a crop or slight turn leaves the pictures broadly aligned); then
+ * the pictures as they are; if that fails but their global correlation is at least
+ * KILN_NEARFP_MIN_SEARCH, one crop alignment per way round (each axis scaled by 1, 0.95 or 0.9
+ * at one of three offsets, chosen on column and row sums) and the better of the two is checked
+ * instead. A pair of which either picture is low-information never passes. Pure function of
+ * its arguments. */
 void kiln_nearfp_verify(const struct kiln_nearfp *a, const struct kiln_nearfp *b, unsigned o,
-                        struct kiln_nearmatch *out);
+                        unsigned gate, struct kiln_nearmatch *out);
 
 /* Alignment w (0..96): the per-axis (scale, offset) choices and the picture it applies to.
  * Scales and offsets are in fortieths of the picture: scale 40, 38 or 36; offset 0..4. For

@@ -74,52 +74,63 @@ static int search_plain(const uint64_t *h, const uint8_t *use, size_t n, unsigne
     return rc;
 }
 
-int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
-                             const struct kiln_nearlink_params *p, struct kiln_nearcands *out,
-                             struct kiln_err *err)
+int kiln_nearlink_search(const struct kiln_nearfp *fp, size_t n,
+                         const struct kiln_nearlink_params *p, unsigned which,
+                         struct kiln_nearcands *out, struct kiln_err *err)
 {
-    out->n = 0;
     if (n >= (size_t)1 << 31)
         return kiln_err_set(err, KILN_EINVAL, "too many pictures for the near-duplicate search");
+    if (which >= KILN_NEARLINK_SEARCHES)
+        return kiln_err_set(err, KILN_EINVAL, "no near-duplicate search number %u", which);
     if (n < 2)
         return KILN_OK;
-    uint64_t *h = kiln_alloc_array(2 * n, sizeof *h), *full = kiln_alloc_array(n, sizeof *full);
-    uint8_t *use = kiln_alloc_array(2 * n, sizeof *use), *side = kiln_alloc_array(2 * n, 1);
+    const int turned = which >= 4;
+    const size_t nrec = turned ? 2 * n : n;
+    uint64_t *h = kiln_alloc_array(nrec, sizeof *h), *full = NULL;
+    uint8_t *use = kiln_alloc_array(nrec, sizeof *use), *side = NULL;
+    if (which == 2 || which == 3)
+        full = kiln_alloc_array(n, sizeof *full);
+    if (turned)
+        side = kiln_alloc_array(nrec, 1);
     int rc = KILN_OK;
-    if (!h || !full || !use || !side) {
+    if (!h || !use || ((which == 2 || which == 3) && !full) || (turned && !side)) {
         rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the near-duplicate search");
         goto done;
     }
-    for (size_t i = 0; i < n; i++) {
-        use[i] = use[n + i] = !(fp[i].flags & KILN_NEARFP_LOWINFO);
-        side[i] = 0;
-        side[n + i] = 1;
-        h[i] = full[i] = fp[i].hash;
-    }
-    rc = search_plain(h, use, n, KILN_NEARFP_HASH_BITS, p->radius_full, NULL, 0,
-                      KILN_NEARCAND_FULL, out, err);
-    if (!rc) {
+    for (size_t i = 0; i < nrec; i++)
+        use[i] = !(fp[i % n].flags & KILN_NEARFP_LOWINFO);
+    switch (which) {
+    case 0:
+    case 1:
         for (size_t i = 0; i < n; i++)
-            h[i] = fp[i].centre;
-        rc = search_plain(h, use, n, KILN_NEARFP_CENTRE_BITS, p->radius_centre, NULL, 0,
-                          KILN_NEARCAND_CENTRE, out, err);
-    }
-    for (int centre = 0; centre <= 1 && !rc; centre++) {
-        for (size_t i = 0; i < n; i++)
-            h[i] = kiln_nearlink_coarse(centre ? fp[i].centre : fp[i].hash);
+            h[i] = which ? fp[i].centre : fp[i].hash;
+        rc = search_plain(h, use, n, KILN_NEARFP_HASH_BITS,
+                          which ? p->radius_centre : p->radius_full, NULL, 0,
+                          which ? KILN_NEARCAND_CENTRE : KILN_NEARCAND_FULL, out, err);
+        break;
+    case 2:
+    case 3:
+        for (size_t i = 0; i < n; i++) {
+            full[i] = fp[i].hash;
+            h[i] = kiln_nearlink_coarse(which == 3 ? fp[i].centre : fp[i].hash);
+        }
         rc = search_plain(h, use, n, 35, p->radius_coarse, full, p->coarse_confirm,
-                          centre ? KILN_NEARCAND_COARSE_CENTRE : KILN_NEARCAND_COARSE, out, err);
-    }
-    /* Turned: item i's own hash (records 0..n-1) against item j's hash as displayed under o
-     * (records n..2n-1). "i ~ j under o" is the same relation as "j ~ i under o's inverse",
-     * found in that orientation's pass, so only i < j is kept. */
-    for (unsigned o = 2; o <= 8 && !rc; o++) {
+                          which == 3 ? KILN_NEARCAND_COARSE_CENTRE : KILN_NEARCAND_COARSE, out,
+                          err);
+        break;
+    default: {
+        /* Turned, o = which - 2: item i's own hash (records 0..n-1) against item j's hash as
+         * displayed under o (records n..2n-1). "i ~ j under o" is the same relation as "j ~ i
+         * under o's inverse", found in that orientation's search, so only i < j is kept. */
+        const unsigned o = which - 2;
         for (size_t i = 0; i < n; i++) {
             h[i] = fp[i].hash;
             h[n + i] = kiln_nearfp_orient_hash(fp[i].hash, o);
+            side[i] = 0;
+            side[n + i] = 1;
         }
         struct kiln_pairs pairs = {NULL, 0, 0};
-        struct kiln_neardup_query q = {.hash = h, .use = use, .side = side, .n = 2 * n,
+        struct kiln_neardup_query q = {.hash = h, .use = use, .side = side, .n = nrec,
                                        .nbits = KILN_NEARFP_HASH_BITS,
                                        .radius = p->radius_turned};
         rc = kiln_neardup_search(&q, &pairs, err);
@@ -130,8 +141,32 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
         }
         kiln_pairs_free(&pairs);
     }
-    if (rc)
-        goto done;
+    }
+done:
+    free(h);
+    free(full);
+    free(use);
+    free(side);
+    return rc;
+}
+
+int kiln_nearlink_merge(const struct kiln_nearfp *fp, struct kiln_nearcands *parts,
+                        size_t nparts, struct kiln_nearcands *out, struct kiln_err *err)
+{
+    out->n = 0;
+    size_t total = 0;
+    for (size_t k = 0; k < nparts; k++)
+        if (!kiln_add_size(total, parts[k].n, &total))
+            return kiln_err_set(err, KILN_ENOMEM, "too many near-duplicate candidates");
+    void *buf = out->c;
+    if (!kiln_grow(&buf, &out->cap, total, sizeof *out->c))
+        return kiln_err_set(err, KILN_ENOMEM, "cannot hold %zu near-duplicate candidates", total);
+    out->c = buf;
+    for (size_t k = 0; k < nparts; k++) {
+        if (parts[k].n)
+            memcpy(out->c + out->n, parts[k].c, parts[k].n * sizeof *out->c);
+        out->n += parts[k].n;
+    }
     qsort(out->c, out->n, sizeof *out->c, cmp_cand);
     size_t m = 0;
     for (size_t k = 0; k < out->n; k++) {
@@ -150,11 +185,23 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
         c->distance = (uint8_t)__builtin_popcountll(fp[c->a].hash ^ hb);
         c->centre_distance = (uint8_t)__builtin_popcountll(fp[c->a].centre ^ cb);
     }
-done:
-    free(h);
-    free(full);
-    free(use);
-    free(side);
+    return KILN_OK;
+}
+
+int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
+                             const struct kiln_nearlink_params *p, struct kiln_nearcands *out,
+                             struct kiln_err *err)
+{
+    out->n = 0;
+    struct kiln_nearcands parts[KILN_NEARLINK_SEARCHES];
+    memset(parts, 0, sizeof parts);
+    int rc = KILN_OK;
+    for (unsigned w = 0; w < KILN_NEARLINK_SEARCHES && !rc; w++)
+        rc = kiln_nearlink_search(fp, n, p, w, &parts[w], err);
+    if (!rc)
+        rc = kiln_nearlink_merge(fp, parts, KILN_NEARLINK_SEARCHES, out, err);
+    for (unsigned w = 0; w < KILN_NEARLINK_SEARCHES; w++)
+        kiln_nearcands_free(&parts[w]);
     if (rc)
         out->n = 0;
     return rc;
@@ -164,7 +211,12 @@ void kiln_nearlink_verify(const struct kiln_nearfp *fp, const struct kiln_nearca
                           size_t from, size_t to, struct kiln_nearmatch *match)
 {
     for (size_t k = from; k < to && k < c->n; k++)
-        kiln_nearfp_verify(&fp[c->c[k].a], &fp[c->c[k].b], c->c[k].orientation, &match[k]);
+        kiln_nearfp_verify(&fp[c->c[k].a], &fp[c->c[k].b], c->c[k].orientation,
+                           c->c[k].sources & (KILN_NEARCAND_FULL | KILN_NEARCAND_CENTRE |
+                                              KILN_NEARCAND_TURNED)
+                               ? 0
+                               : KILN_NEARFP_MIN_SEARCH,
+                           &match[k]);
 }
 
 const char *kiln_nearlink_verdict_name(int v)

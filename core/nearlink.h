@@ -35,7 +35,7 @@
 #define KILN_NEARLINK_RADIUS_CENTRE 6
 #define KILN_NEARLINK_RADIUS_TURNED 4
 #define KILN_NEARLINK_RADIUS_COARSE 4
-#define KILN_NEARLINK_COARSE_CONFIRM 18
+#define KILN_NEARLINK_COARSE_CONFIRM 14
 #define KILN_NEARLINK_MAX_PICTURES 8
 
 struct kiln_nearlink_params {
@@ -75,10 +75,23 @@ struct kiln_nearcands {
 void kiln_nearcands_free(struct kiln_nearcands *c);
 
 /* Finds the candidates among fp[0..n-1] into out (emptied first), sorted by (a, b,
- * orientation), each once. Errors: KILN_EINVAL (bad radius, n >= 2^31), KILN_ENOMEM. */
+ * orientation), each once. Errors: KILN_EINVAL (bad radius, n >= 2^31), KILN_ENOMEM. It runs
+ * the searches below one after the other and merges them. */
 int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
                              const struct kiln_nearlink_params *p, struct kiln_nearcands *out,
                              struct kiln_err *err);
+
+/* The same in parts, for callers that spread the work over threads: search number which
+ * (0 full, 1 centre, 2 coarse, 3 coarse centre, 4..10 turned for orientations 2..8) appends its
+ * pairs to out (unsorted, distances not yet set); the searches are independent. Then
+ * kiln_nearlink_merge puts the parts into out (emptied first) exactly as
+ * kiln_nearlink_candidates would, whatever the order the parts were computed in. */
+#define KILN_NEARLINK_SEARCHES 11
+int kiln_nearlink_search(const struct kiln_nearfp *fp, size_t n,
+                         const struct kiln_nearlink_params *p, unsigned which,
+                         struct kiln_nearcands *out, struct kiln_err *err);
+int kiln_nearlink_merge(const struct kiln_nearfp *fp, struct kiln_nearcands *parts,
+                        size_t nparts, struct kiln_nearcands *out, struct kiln_err *err);
 
 /* Checks candidates [from, to) on pixels into match[from..to-1]. Independent per candidate,
  * so callers may share the range out among threads; the results do not depend on how. */

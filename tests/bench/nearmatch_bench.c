@@ -14,6 +14,9 @@
  *       DIR is the output of kiln-demo-data. Ground truth from the names: the tile number
  *       (T0107_b.jpg: tile 107). Reports links between different tiles (must be none) and
  *       between shots of one tile (separate photographs: allowed, not copies).
+ *   kiln-bench-nearmatch ... --param NAME=VALUE
+ *       overrides a search parameter (radius_full, radius_centre, radius_turned, radius_coarse,
+ *       coarse_confirm, max_pictures) to measure a trade-off.
  *   kiln-bench-nearmatch --scale N [--jobs N]
  *       N synthetic fingerprints of generated 48x48 pictures (random smooth fields, gratings
  *       and noise; every 100th a lightly changed copy of an earlier one), then the candidate
@@ -67,6 +70,34 @@ static void *xalloc(size_t n, size_t size)
         die("out of memory", NULL);
     memset(p, 0, (n ? n : 1) * size);
     return p;
+}
+
+/* --param NAME=VALUE overrides of the search's defaults, for measuring trade-offs. */
+static const char *overrides[16];
+static int noverrides;
+
+static void apply_overrides(struct kiln_nearlink_params *p)
+{
+    for (int i = 0; i < noverrides; i++) {
+        unsigned v;
+        char name[32];
+        if (sscanf(overrides[i], "%31[a-z_]=%u", name, &v) != 2)
+            die("bad --param (NAME=VALUE)", overrides[i]);
+        if (!strcmp(name, "radius_full"))
+            p->radius_full = v;
+        else if (!strcmp(name, "radius_centre"))
+            p->radius_centre = v;
+        else if (!strcmp(name, "radius_turned"))
+            p->radius_turned = v;
+        else if (!strcmp(name, "radius_coarse"))
+            p->radius_coarse = v;
+        else if (!strcmp(name, "coarse_confirm"))
+            p->coarse_confirm = v;
+        else if (!strcmp(name, "max_pictures"))
+            p->max_pictures = v;
+        else
+            die("unknown --param", name);
+    }
 }
 
 /* ---- the items ---------------------------------------------------------------------------- */
@@ -196,7 +227,11 @@ static void load_item(struct run *r, struct item *it, struct kiln_image *img,
         snprintf(it->reason, sizeof it->reason, "%s", err.msg);
         return;
     }
-    kiln_sha256_buf(data, size, it->sha, &err);
+    if (kiln_sha256_buf(data, size, it->sha, &err)) {
+        snprintf(it->reason, sizeof it->reason, "%s", err.msg);
+        free(data);
+        return;
+    }
     const struct kiln_decoder *dec = kiln_decoder_find(data, size);
     struct kiln_image_info info;
     int rc = dec ? dec->read_info(data, size, NULL, &info, &err) : KILN_EUNSUPPORTED;
@@ -224,7 +259,7 @@ static void load_item(struct run *r, struct item *it, struct kiln_image *img,
         if (!rc) {
             kiln_sha256_update(&ctx, head, sizeof head);
             kiln_sha256_update(&ctx, use->data, (size_t)use->height * use->stride);
-            kiln_sha256_final(&ctx, it->pix);
+            rc = kiln_sha256_final(&ctx, it->pix, &err);
             kiln_sha256_free(&ctx);
         }
     }
@@ -250,6 +285,65 @@ static void *load_worker(void *arg)
     kiln_image_free(&img);
     kiln_image_free(&shown);
     return NULL;
+}
+
+/* The searches handed out to the threads one by one, then merged: the same candidates as one
+ * thread would find (kiln_nearlink_merge sorts them). */
+struct search_run {
+    const struct kiln_nearfp *fp;
+    size_t n;
+    const struct kiln_nearlink_params *p;
+    struct kiln_nearcands parts[KILN_NEARLINK_SEARCHES];
+    double cpu[KILN_NEARLINK_SEARCHES];
+    atomic_uint next;
+    atomic_int failed;
+};
+
+static void *search_worker(void *arg)
+{
+    struct search_run *sr = arg;
+    for (;;) {
+        unsigned w = atomic_fetch_add(&sr->next, 1);
+        if (w >= KILN_NEARLINK_SEARCHES)
+            break;
+        struct kiln_err err;
+        struct timespec a, b;
+        clock_gettime(CLOCK_THREAD_CPUTIME_ID, &a);
+        if (kiln_nearlink_search(sr->fp, sr->n, sr->p, w, &sr->parts[w], &err))
+            atomic_store(&sr->failed, 1);
+        clock_gettime(CLOCK_THREAD_CPUTIME_ID, &b);
+        sr->cpu[w] = (double)(b.tv_sec - a.tv_sec) + (double)(b.tv_nsec - a.tv_nsec) * 1e-9;
+    }
+    return NULL;
+}
+
+static void parallel_candidates(const struct kiln_nearfp *fp, size_t n,
+                                const struct kiln_nearlink_params *p, int jobs,
+                                struct kiln_nearcands *out, int report)
+{
+    struct search_run sr;
+    memset(&sr, 0, sizeof sr);
+    sr.fp = fp;
+    sr.n = n;
+    sr.p = p;
+    pthread_t tid[64];
+    for (int j = 0; j < jobs; j++)
+        if (pthread_create(&tid[j], NULL, search_worker, &sr))
+            die("cannot start a thread", NULL);
+    for (int j = 0; j < jobs; j++)
+        pthread_join(tid[j], NULL);
+    struct kiln_err err;
+    if (atomic_load(&sr.failed) || kiln_nearlink_merge(fp, sr.parts, KILN_NEARLINK_SEARCHES, out, &err))
+        die("candidate search failed", NULL);
+    if (report) {
+        printf("CPU time per search (s): full %.2f, centre %.2f, coarse %.2f, coarse centre %.2f, "
+               "turned", sr.cpu[0], sr.cpu[1], sr.cpu[2], sr.cpu[3]);
+        for (int w = 4; w < KILN_NEARLINK_SEARCHES; w++)
+            printf(" %.2f", sr.cpu[w]);
+        printf("\n");
+    }
+    for (int w = 0; w < KILN_NEARLINK_SEARCHES; w++)
+        kiln_nearcands_free(&sr.parts[w]);
 }
 
 /* Verification in chunks handed out to the threads; results land by candidate index. */
@@ -526,11 +620,11 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
 
     struct kiln_nearlink_params p;
     kiln_nearlink_defaults(&p);
+    apply_overrides(&p);
     struct kiln_nearcands c = {0};
     struct kiln_err err;
     t0 = now();
-    if (kiln_nearlink_candidates(fp, n, &p, &c, &err))
-        die("candidate search failed", err.msg);
+    parallel_candidates(fp, n, &p, r->jobs, &c, 0);
     double t_search = now() - t0;
     struct kiln_nearmatch *m = xalloc(c.n, sizeof *m);
     r->cands = &c;
@@ -552,7 +646,7 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
 
     size_t src[8] = {0}, checked = 0, v[4] = {0}, wrong_checked = 0, wrong_linked = 0;
     for (size_t k = 0; k < c.n; k++) {
-        for (int b = 0; b < 3; b++)
+        for (int b = 0; b < 5; b++)
             src[b] += (c.c[k].sources >> b) & 1;
         checked += m[k].linked;
         v[verdict[k]]++;
@@ -560,12 +654,13 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
         wrong_checked += m[k].linked && !same;
         wrong_linked += verdict[k] == KILN_NEARLINK_LINKED && !same;
     }
-    printf("candidates: %zu (full hash %zu, centre hash %zu, turned %zu); passed the pixel check: %zu "
-           "(%zu between different specimens)\n", c.n, src[0], src[1], src[2], checked, wrong_checked);
+    printf("candidates: %zu (full hash %zu, centre hash %zu, turned %zu, coarse %zu, coarse centre "
+           "%zu); passed the pixel check: %zu (%zu between different specimens)\n", c.n, src[0],
+           src[1], src[2], src[3], src[4], checked, wrong_checked);
     printf("unit rule%s: linked %zu (%zu between different specimens), refused for labels %zu, "
            "refused for size %zu\n", no_labels ? " (labels ignored)" : "", v[1], wrong_linked, v[2], v[3]);
-    printf("time: decode+fingerprint %.2f s on %d threads, search %.3f s (one thread), pixel check "
-           "%.3f s on %d threads\n", t_load, r->jobs, t_search, t_verify, r->jobs);
+    printf("time: decode+fingerprint %.2f s, search %.3f s, pixel check %.3f s, on %d threads\n",
+           t_load, t_search, t_verify, r->jobs);
 
     struct tally t;
     printf("\npair metrics (same unit vs same specimen):\n");
@@ -596,7 +691,7 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
         printf("digits: %zu links, %zu units with more than one class\n", dl,
                mixed_units(r->it, n, unit, lab, "digits", 1));
     } else {
-        size_t across = 0, within = 0, refused = 0;
+        size_t across = 0, within = 0, refused = 0, identical = 0;
         for (size_t k = 0; k < c.n; k++) {
             if (!m[k].linked)
                 continue;
@@ -605,7 +700,9 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
                 refused++;
                 continue;
             }
-            if (same)
+            if (exact[c.c[k].a] == exact[c.c[k].b])
+                identical++; /* the same file or pixels: merged by the exact rule anyway */
+            else if (same)
                 within++;
             else {
                 across++;
@@ -613,7 +710,8 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
             }
         }
         printf("demo: near links between different tiles %zu, between shots of one tile %zu, "
-               "refused %zu\n", across, within, refused);
+               "refused %zu; checked pairs that are identical files or pixels %zu\n", across,
+               within, refused, identical);
     }
 
     if (dump) {
@@ -658,8 +756,10 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
             kiln_sha256_update(&ctx, &verdict[k], 1);
         }
         kiln_sha256_update(&ctx, unit, n * sizeof *unit);
-        kiln_sha256_final(&ctx, dg);
+        int frc = kiln_sha256_final(&ctx, dg, &err);
         kiln_sha256_free(&ctx);
+        if (frc)
+            die("cannot digest the results", err.msg);
         kiln_sha256_hex(dg, hex);
         printf("\nresult digest %s\n", hex);
     }
@@ -743,11 +843,11 @@ static void run_scale(size_t n, int jobs)
     double t_fp = now() - t0;
     struct kiln_nearlink_params p;
     kiln_nearlink_defaults(&p);
+    apply_overrides(&p);
     struct kiln_nearcands c = {0};
     t0 = now();
     double c0 = cpu();
-    if (kiln_nearlink_candidates(fp, n, &p, &c, &err))
-        die("candidate search failed", err.msg);
+    parallel_candidates(fp, n, &p, jobs, &c, 1);
     double t_search = now() - t0, c_search = cpu() - c0;
     struct kiln_nearmatch *m = xalloc(c.n, sizeof *m);
     struct run r = {0};
@@ -759,25 +859,25 @@ static void run_scale(size_t n, int jobs)
     c0 = cpu();
     run_threads(&r, verify_worker);
     double t_verify = now() - t0, c_verify = cpu() - c0;
-    size_t linked = 0, low = 0, src[3] = {0, 0, 0};
+    size_t linked = 0, low = 0, src[5] = {0, 0, 0, 0, 0};
     for (size_t k = 0; k < c.n; k++) {
         linked += m[k].linked;
-        for (int b = 0; b < 3; b++)
+        for (int b = 0; b < 5; b++)
             src[b] += (c.c[k].sources >> b) & 1;
     }
-    printf("candidates by search: full hash %zu, centre hash %zu, turned %zu\n", src[0], src[1],
-           src[2]);
+    printf("candidates by search: full hash %zu, centre hash %zu, turned %zu, coarse %zu, coarse "
+           "centre %zu\n", src[0], src[1], src[2], src[3], src[4]);
     for (size_t i = 0; i < n; i++)
         low += (fp[i].flags & KILN_NEARFP_LOWINFO) != 0;
     struct rusage ru;
     getrusage(RUSAGE_SELF, &ru);
     printf("%zu synthetic %dx%d pictures (%zu planted copies, %zu low-information): fingerprints "
            "%.1f s\n", n, SYN, SYN, planted, low, t_fp);
-    printf("candidate search %.2f s (one thread): %zu candidates; pixel check %.2f s on %d "
-           "threads: %zu passed\n", t_search, c.n, t_verify, jobs, linked);
-    printf("search + check: %.2f s wall; CPU time: search %.2f s, check %.2f s (so %.2f s on %d "
-           "idle cores); fingerprint %zu bytes each; peak RSS %ld MiB\n",
-           t_search + t_verify, c_search, c_verify, c_search + c_verify / jobs, jobs,
+    printf("candidate search %.2f s: %zu candidates; pixel check %.2f s: %zu passed; %d threads\n",
+           t_search, c.n, t_verify, linked, jobs);
+    printf("search + check: %.2f s wall; CPU time: search %.2f s, check %.2f s (%.2f s in all); "
+           "fingerprint %zu bytes each; peak RSS %ld MiB\n",
+           t_search + t_verify, c_search, c_verify, c_search + c_verify,
            sizeof(struct kiln_nearfp), ru.ru_maxrss / 1024);
     free(fp);
     free(m);
@@ -803,10 +903,13 @@ int main(int argc, char **argv)
             scale = strtoull(argv[++a], NULL, 10);
         else if (strcmp(argv[a], "--no-labels") == 0)
             no_labels = 1;
+        else if (strcmp(argv[a], "--param") == 0 && a + 1 < argc && noverrides < 16)
+            overrides[noverrides++] = argv[++a];
         else if (argv[a][0] != '-' && !set)
             set = argv[a];
         else {
-            fprintf(stderr, "usage: kiln-bench-nearmatch SET [--jobs N] [--no-labels] [--dump FILE]\n"
+            fprintf(stderr, "usage: kiln-bench-nearmatch SET [--jobs N] [--no-labels] [--dump FILE]"
+                            " [--param NAME=VALUE]...\n"
                             "       kiln-bench-nearmatch --demo DIR [--jobs N]\n"
                             "       kiln-bench-nearmatch --scale N [--jobs N]\n");
             return 2;

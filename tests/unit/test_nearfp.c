@@ -284,7 +284,7 @@ static void test_orientation(void **state)
             }
             /* the turned copy passes the check in its orientation */
             struct kiln_nearmatch m;
-            kiln_nearfp_verify(&fr, &f, o, &m);
+            kiln_nearfp_verify(&fr, &f, o, 0, &m);
             assert_int_equal(m.linked, 1);
             assert_int_equal(m.global, 1 << 20);
         }
@@ -415,23 +415,23 @@ static void test_real_picture(void **state)
     }
     fingerprint(&b, &fb);
     assert_true(__builtin_popcountll(fa.hash ^ fb.hash) <= 6);
-    kiln_nearfp_verify(&fa, &fb, 1, &m);
+    kiln_nearfp_verify(&fa, &fb, 1, 0, &m);
     assert_int_equal(m.linked, 1);
     crop_to(&cam, 158, 100, 184, 160, &b); /* 8 % off the width */
     fingerprint(&b, &fb);
-    kiln_nearfp_verify(&fa, &fb, 1, &m);
+    kiln_nearfp_verify(&fa, &fb, 1, 0, &m);
     assert_int_equal(m.linked, 1);
     crop_to(&cam, 150, 100, 200, 160, &b);
     for (uint32_t y = 130; y < 160; y++)
         memset((uint8_t *)b.data + (size_t)y * 200 + 120, 255, 80);
     fingerprint(&b, &fb);
-    kiln_nearfp_verify(&fa, &fb, 1, &m);
+    kiln_nearfp_verify(&fa, &fb, 1, 0, &m);
     assert_int_equal(m.linked, 1);
     assert_true(m.global_trim > m.global);
     crop_to(&cam, 350, 100, 200, 160, &b); /* the region to the right: a different picture */
     fingerprint(&b, &fb);
     for (unsigned o = 1; o <= 8; o++) {
-        kiln_nearfp_verify(&fa, &fb, o, &m);
+        kiln_nearfp_verify(&fa, &fb, o, 0, &m);
         assert_int_equal(m.linked, 0);
     }
     kiln_image_free(&cam);
@@ -468,7 +468,7 @@ static void test_low_information(void **state)
     assert_true(f.flags & KILN_NEARFP_SMALL);
     assert_true(f.flags & KILN_NEARFP_LOWINFO);
     struct kiln_nearmatch m;
-    kiln_nearfp_verify(&f, &f, 1, &m);
+    kiln_nearfp_verify(&f, &f, 1, 0, &m);
     assert_int_equal(m.linked, 0); /* never by these hashes, even against itself */
     /* textured: informative; the same grey picture in 16 bits (x 257, exact for one channel,
      * whereas the luma of RGB rounds differently at the two depths) has the same grid, hash
