@@ -193,12 +193,15 @@ static unsigned choose_tables(size_t nu, unsigned nbits, unsigned radius)
         unsigned q = radius / m, len = (nbits + m - 1) / m, lmin = nbits / m;
         if (q > 0 && len > PROBE_MAX_BITS)
             continue;
-        double ballsize = 0, c = 1;
-        for (unsigned k = 0; k <= q; k++) {
+        double ballsize = 0, c = 1, buckets = 1;
+        for (unsigned k = 0; k <= q && k <= len; k++) {
             ballsize += c;
             c = c * (double)(len - k) / (double)(k + 1);
         }
-        double cost = (double)m * (double)nu * ballsize * ((double)nu / (double)(UINT64_C(1) << lmin) + (q ? 4.0 : 0.0));
+        for (unsigned k = 0; k < lmin; k++)
+            buckets *= 2;
+        /* (floating point only ranks the choices; no result depends on it) */
+        double cost = (double)m * (double)nu * ballsize * ((double)nu / buckets + (q ? 4.0 : 0.0));
         if (best_cost < 0 || cost < best_cost) {
             best_cost = cost;
             best = m;

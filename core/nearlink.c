@@ -167,6 +167,8 @@ int kiln_nearlink_merge(const struct kiln_nearfp *fp, struct kiln_nearcands *par
             memcpy(out->c + out->n, parts[k].c, parts[k].n * sizeof *out->c);
         out->n += parts[k].n;
     }
+    if (out->n == 0)
+        return KILN_OK;
     qsort(out->c, out->n, sizeof *out->c, cmp_cand);
     size_t m = 0;
     for (size_t k = 0; k < out->n; k++) {
