@@ -2,7 +2,7 @@
 # pack stops (exit 5, naming the file), removes its temporary files, and the output folder holds
 # no manifest and no checksum list -- even where an earlier complete output was being replaced.
 . "$(dirname "$0")/lib.sh"
-demo_data "$work/data"
+demo_data_copy "$work/data"
 expect_exit 0 "$KILN" build "$work/data" -o "$work/out" --seed 1 --size 32 -q
 [ -f "$work/out/manifest.json" ] || fail "first build wrote no manifest"
 victim=$(first_file "$work/data" -name '*.png')

@@ -4,7 +4,7 @@
 # that would join two old splits, and resolves it toward test when asked.
 . "$(dirname "$0")/lib.sh"
 need_python
-demo_data "$work/data"
+demo_data_copy "$work/data"
 # Near duplicates: three shots re-encoded at another quality under new tile numbers.
 "$PYTHON" - "$work/data" <<'PY'
 import sys

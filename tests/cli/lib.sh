@@ -1,5 +1,6 @@
 # Shared helpers for command-level tests. Each test sources this file; ctest passes KILN,
-# KILN_DEMO, KILN_TESTDATA, PYTHON, KILN_SRC and KILN_TOOLS in the environment.
+# KILN_DEMO, KILN_TESTDATA, PYTHON, KILN_SRC and KILN_TOOLS in the environment, and
+# KILN_DEMO_SET to the tests that use the shared demo set.
 set -euo pipefail
 : "${KILN:?KILN must name the kiln binary}"
 : "${PYTHON:=/usr/bin/python3}"
@@ -50,12 +51,30 @@ first_file() {
     printf '%s\n' "${all%%$'\n'*}"
 }
 
-# demo_data DIR: generates the demo data set; DIR becomes its class-folder root (crawling/,
-# crazing/, pinholing/, sound/), so the folder label rule sees the four classes.
+# demo_data DIR: DIR becomes the demo data set's class-folder root (crawling/, crazing/,
+# pinholing/, sound/), so the folder label rule sees the four classes. Under ctest DIR is a link
+# to the set the run generated once (fixture demo_set, tests/cli/demo_set.sh), which is read-only
+# and checked after the tests: a test that changes, adds or removes files uses demo_data_copy.
+# Run by hand without KILN_DEMO_SET, the set is generated into DIR.
 demo_data() {
+    if [ -n "${KILN_DEMO_SET:-}" ]; then
+        [ -d "$KILN_DEMO_SET" ] || fail "the shared demo set $KILN_DEMO_SET is missing"
+        ln -s "$KILN_DEMO_SET" "$1"
+        return
+    fi
     "$KILN_DEMO" "$1.gen" >/dev/null
     mv "$1.gen/glaze-tiles" "$1"
     rmdir "$1.gen"
+}
+
+# demo_data_copy DIR: a private, writable copy of the demo data set at DIR.
+demo_data_copy() {
+    if [ -n "${KILN_DEMO_SET:-}" ]; then
+        cp -r "$KILN_DEMO_SET" "$1"
+        chmod -R u+w "$1"
+        return
+    fi
+    demo_data "$1"
 }
 
 need_torch() {

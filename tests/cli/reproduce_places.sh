@@ -4,7 +4,7 @@
 # (public key, or the secret key given with --path-key). A moved file is reported as exactly
 # one move. Without the secret key, kiln says it cannot tell instead of calling everything moved.
 . "$(dirname "$0")/lib.sh"
-demo_data "$work/demo"
+demo_data_copy "$work/demo"
 # A set with many exact duplicates: 40 files copied under other names into other folders of
 # their class (the demo set itself holds one identical pair).
 cp -r "$work/demo" "$work/dups"
