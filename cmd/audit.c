@@ -7,7 +7,7 @@
 #include <sys/stat.h>
 
 #include "../core/audit.h"
-#include "../formats/catalog_csv.h"
+#include "../formats/files/catalog_csv.h"
 #include "cmd.h"
 
 static void help(void)

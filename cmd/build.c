@@ -3,9 +3,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "../core/record_pool.h"
-#include "../core/stage_pack.h"
-#include "../core/stage_record.h"
+#include "../core/pipeline/record_pool.h"
+#include "../core/pipeline/stage_pack.h"
+#include "../core/pipeline/stage_record.h"
 #include "cmd.h"
 
 static void help(void)

@@ -21,7 +21,7 @@
 
 #include "../core/err.h"
 #include "../core/recipe.h"
-#include "../core/stage_scan.h"
+#include "../core/pipeline/stage_scan.h"
 #include "../core/split.h"
 
 /* Exit codes, pinned (docs/cli.md). */

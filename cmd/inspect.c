@@ -5,8 +5,8 @@
 #include <string.h>
 #include <sys/stat.h>
 
-#include "../formats/kten.h"
-#include "../formats/manifest.h"
+#include "../formats/files/kten.h"
+#include "../formats/files/manifest.h"
 #include "cmd.h"
 
 static void help(void)

@@ -4,7 +4,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "../core/stage_reproduce.h"
+#include "../core/pipeline/stage_reproduce.h"
 #include "cmd.h"
 
 static void help(void)

@@ -5,9 +5,9 @@
 #include <string.h>
 
 #include "../core/audit.h"
-#include "../core/stage_record.h"
-#include "../formats/catalog_csv.h"
-#include "../formats/manifest.h"
+#include "../core/pipeline/stage_record.h"
+#include "../formats/files/catalog_csv.h"
+#include "../formats/files/manifest.h"
 #include "cmd.h"
 
 static void help(void)

@@ -3,7 +3,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "../core/stage_verify.h"
+#include "../core/pipeline/stage_verify.h"
 #include "cmd.h"
 
 static void help(void)

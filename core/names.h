@@ -2,7 +2,7 @@
  * an output passes through kiln_names_out: unchanged, or with --hash-paths as "h:" followed by
  * the first 32 hex digits of HMAC-SHA256(key, name) (docs/formats.md, "Hashed names"). The
  * stages apply it in one place each for the catalogue (kiln_names_catalog) and for the JSON
- * records copied into a manifest (core/stage_record.c, kiln_record_public). */
+ * records copied into a manifest (core/pipeline/stage_record.c, kiln_record_public). */
 #ifndef KILN_NAMES_H
 #define KILN_NAMES_H
 

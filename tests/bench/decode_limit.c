@@ -16,8 +16,8 @@
 #include <time.h>
 
 #include "../../core/prepare.h"
-#include "../../formats/decoder.h"
-#include "../../formats/source.h"
+#include "../../formats/decoders/decoder.h"
+#include "../../formats/sources/source.h"
 
 struct limit_files {
     char **path;

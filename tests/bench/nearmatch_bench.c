@@ -38,9 +38,9 @@
 #include "../../core/nearfp.h"
 #include "../../core/nearlink.h"
 #include "../../core/sha256.h"
-#include "../../formats/csv.h"
-#include "../../formats/decoder.h"
-#include "../../formats/source.h"
+#include "../../formats/files/csv.h"
+#include "../../formats/decoders/decoder.h"
+#include "../../formats/sources/source.h"
 
 static double now(void)
 {

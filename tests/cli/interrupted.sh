@@ -1,6 +1,6 @@
 # A pack or build killed mid-run (SIGKILL: no chance to clean up) leaves its hidden temporary
 # files; the next run into the folder removes them -- only regular files named by kiln's own
-# temporary-name pattern (formats/outfile.c) for one of its outputs, whose process is gone --
+# temporary-name pattern (formats/files/outfile.c) for one of its outputs, whose process is gone --
 # says how many files and bytes (checked against stat), and then writes a complete output.
 # Look-alikes are left alone: a symbolic link with such a name, a hidden file of another name,
 # and a temporary file of a process that is still running.

@@ -1,12 +1,12 @@
-/* The source walker on an archive (formats/source.c dispatch, formats/source_archive.c on
+/* The source walker on an archive (formats/sources/source.c dispatch, formats/sources/source_archive.c on
  * libarchive): the input is an archive file of any kind libarchive reads, handed over as an
  * in-memory file (memfd), walked as `kiln scan` walks a source archive. Each entry must carry
  * a known status, a reason when it is not ok, and its bytes when it is. */
 #include <string.h>
 
 #include "../../core/catalog.h"
-#include "../../formats/decoder.h"
-#include "../../formats/source.h"
+#include "../../formats/decoders/decoder.h"
+#include "../../formats/sources/source.h"
 #include "fuzz.h"
 
 struct walk {

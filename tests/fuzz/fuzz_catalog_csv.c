@@ -1,10 +1,10 @@
-/* catalog.csv reading (formats/catalog_csv.c), as split, pack, audit and reproduce load it, then
+/* catalog.csv reading (formats/files/catalog_csv.c), as split, pack, audit and reproduce load it, then
  * the steps they take next (sort, class index, status counts). A loaded catalogue written back
  * must load again and write the same bytes: the stage file is a fixed point of load and write. */
 #include <string.h>
 
 #include "../../core/catalog.h"
-#include "../../formats/catalog_csv.h"
+#include "../../formats/files/catalog_csv.h"
 #include "fuzz.h"
 
 /* Loads path into cat; returns the code. */

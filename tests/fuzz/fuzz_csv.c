@@ -1,8 +1,8 @@
-/* The RFC 4180 reader (formats/csv.c) on any bytes, then the round trip every stage file relies
+/* The RFC 4180 reader (formats/files/csv.c) on any bytes, then the round trip every stage file relies
  * on: rows read from the input, written back with kiln_csv_field, must read back identical. */
 #include <string.h>
 
-#include "../../formats/csv.h"
+#include "../../formats/files/csv.h"
 #include "fuzz.h"
 
 /* Reads every row of path; writes them to out when it is not NULL. Returns the row count, or

@@ -1,4 +1,4 @@
-/* One image decoder through the interface pack and scan use (formats/decoder.h), built once per
+/* One image decoder through the interface pack and scan use (formats/decoders/decoder.h), built once per
  * format with FUZZ_FORMAT set to its name: probe and sniff, read_info with limits, the limit
  * check, kiln_decoded_shape and decode at every reduction the header allows, a second decode
  * marked trusted (pack's path after the SHA-256 matched) that must give the same pixels, and
@@ -6,14 +6,14 @@
 #include <string.h>
 
 #include "../../core/convert.h"
-#include "../../formats/decoder.h"
+#include "../../formats/decoders/decoder.h"
 #include "fuzz.h"
 
 #ifndef FUZZ_FORMAT
 #error "FUZZ_FORMAT must name a decoder"
 #endif
 
-/* The failure codes formats/decoder.h allows a decoder to return for bad input (KILN_ENOMEM
+/* The failure codes formats/decoders/decoder.h allows a decoder to return for bad input (KILN_ENOMEM
  * is not one of them at the harness limits: fuzz.h). */
 static int input_code(int rc)
 {
@@ -69,7 +69,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
                               info.max_scale_denom, info.pages > 1};
     fuzz_outcome_bytes(shape, sizeof shape);
     fuzz_outcome(0, info.note);
-    /* The caller's limit check (core/stage_scan.c, core/stage_pack.c). */
+    /* The caller's limit check (core/pipeline/stage_scan.c, core/pipeline/stage_pack.c). */
     if (!info.width || !info.height || (uint64_t)info.width * info.height > lim.max_pixels ||
         info.width > lim.max_side || info.height > lim.max_side)
         return 0;

@@ -1,7 +1,7 @@
-/* The EXIF orientation reader (formats/exif.c) on raw TIFF-structured blocks, the payload JPEG
+/* The EXIF orientation reader (formats/decoders/exif.c) on raw TIFF-structured blocks, the payload JPEG
  * APP1 and PNG eXIf hand it. libFuzzer passes each input in a buffer of exactly its size, so
  * AddressSanitizer catches any read outside [data, data + len). */
-#include "../../formats/exif.h"
+#include "../../formats/decoders/exif.h"
 #include "fuzz.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)

@@ -1,4 +1,4 @@
-/* split --keep's reader (formats/keep.c): an earlier manifest.json and the items.csv beside it.
+/* split --keep's reader (formats/files/keep.c): an earlier manifest.json and the items.csv beside it.
  * The input is manifest.json, then FUZZ_SEP and items.csv. The literal @ITEMS_SHA256@ in the
  * manifest is replaced by the digest of the items part, so inputs get past the digest check
  * and into the CSV; without it they test the refusal. */
@@ -6,7 +6,7 @@
 #include <string.h>
 
 #include "../../core/sha256.h"
-#include "../../formats/keep.h"
+#include "../../formats/files/keep.h"
 #include "fuzz.h"
 
 #define PLACEHOLDER "@ITEMS_SHA256@"

@@ -1,11 +1,11 @@
-/* .kten reading (formats/kten.c) as verify and inspect do it: header, array table and metadata
+/* .kten reading (formats/files/kten.c) as verify and inspect do it: header, array table and metadata
  * block validated by kiln_kten_open, then every digest recomputed by kiln_kten_check, array
  * lookup, and the metadata parsed as JSON. A header that opens must describe arrays that lie
  * inside the file. */
 #include <jansson.h>
 #include <string.h>
 
-#include "../../formats/kten.h"
+#include "../../formats/files/kten.h"
 #include "fuzz.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)

@@ -1,8 +1,8 @@
 /* The labels CSV of `--labels csv:FILE` (path,label[,group]), loaded and checked by the scan
- * stage's own loader (core/stage_scan.c, reached through kiln_labels_csv_check). */
+ * stage's own loader (core/pipeline/stage_scan.c, reached through kiln_labels_csv_check). */
 #include <string.h>
 
-#include "../../core/stage_scan.h"
+#include "../../core/pipeline/stage_scan.h"
 #include "fuzz.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)

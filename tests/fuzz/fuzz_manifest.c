@@ -5,8 +5,8 @@
 #include <limits.h>
 #include <string.h>
 
-#include "../../core/stage_verify.h"
-#include "../../formats/manifest.h"
+#include "../../core/pipeline/stage_verify.h"
+#include "../../formats/files/manifest.h"
 #include "fuzz.h"
 
 static void on_issue(void *ctx, int kind, const char *msg)

@@ -16,8 +16,8 @@
 #include <zlib.h>
 
 #include "../../core/sha256.h"
-#include "../../formats/decoder.h"
-#include "../../formats/source.h"
+#include "../../formats/decoders/decoder.h"
+#include "../../formats/sources/source.h"
 
 static void print_result(const char *name, const char *status, const char *format,
                          const struct kiln_image_info *info)

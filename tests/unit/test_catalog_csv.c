@@ -12,7 +12,7 @@
 #include <string.h>
 #include <unistd.h>
 
-#include "../../formats/catalog_csv.h"
+#include "../../formats/files/catalog_csv.h"
 
 static char tmpdir[64];
 static char path[128];

@@ -10,7 +10,7 @@
 #include <string.h>
 #include <unistd.h>
 
-#include "../../formats/csv.h"
+#include "../../formats/files/csv.h"
 
 static char tmpdir[64];
 static char path[128];

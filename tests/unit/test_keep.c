@@ -15,7 +15,7 @@
 #include <unistd.h>
 
 #include "../../core/sha256.h"
-#include "../../formats/keep.h"
+#include "../../formats/files/keep.h"
 
 static char tmpdir[64], manifest[128], items[128];
 

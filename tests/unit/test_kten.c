@@ -12,7 +12,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include "../../formats/kten.h"
+#include "../../formats/files/kten.h"
 
 static char tmpdir[64];
 static char path[128];

@@ -14,7 +14,7 @@
 #include <unistd.h>
 
 #include "../../core/sha256.h"
-#include "../../formats/outfile.h"
+#include "../../formats/files/outfile.h"
 #include "faults.h"
 
 static char tmpdir[64];

@@ -10,7 +10,7 @@
 #include <stdatomic.h>
 #include <time.h>
 
-#include "../../core/queue.h"
+#include "../../core/pipeline/queue.h"
 
 static void pause_ms(long ms)
 {

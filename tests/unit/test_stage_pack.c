@@ -13,10 +13,10 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include "../../core/stage_pack.h"
+#include "../../core/pipeline/stage_pack.h"
 #include "../../core/split.h"
 #include "../../core/units.h"
-#include "../../formats/manifest.h"
+#include "../../formats/files/manifest.h"
 #include "faults.h"
 
 static char tmpdir[64], srcdir[96], outdir[96];

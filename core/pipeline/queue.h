@@ -1,0 +1,42 @@
+/* A blocking FIFO bounded both in entries and in bytes: the reader of source files pushes,
+ * decode workers pop, so memory in flight stays bounded whatever the data set size. */
+#ifndef KILN_QUEUE_H
+#define KILN_QUEUE_H
+
+#include <pthread.h>
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "../err.h"
+
+struct kiln_queue {
+    pthread_mutex_t mu;
+    pthread_cond_t not_empty, not_full;
+    void **slots;
+    size_t *sizes;
+    size_t cap, head, count;
+    size_t bytes, max_bytes;
+    bool closed;
+};
+
+/* File bytes in flight between a reader and its workers, unless a stage is told otherwise:
+ * enough for a few dozen camera files, so decoders never wait on the reader, and a fixed share
+ * of the memory target (docs/performance.md). */
+#define KILN_QUEUE_BYTES_DEFAULT ((size_t)16 << 20)
+
+int kiln_queue_init(struct kiln_queue *q, size_t max_entries, size_t max_bytes,
+                    struct kiln_err *err);
+void kiln_queue_destroy(struct kiln_queue *q);
+
+/* Blocks while the queue is full. An entry larger than max_bytes is still accepted once the
+ * queue is empty, so a single huge file cannot dead-lock the pipeline. Returns false (and does
+ * not take the entry) if the queue was closed. */
+bool kiln_queue_push(struct kiln_queue *q, void *entry, size_t bytes);
+
+/* Blocks until an entry is available; returns NULL once the queue is closed and drained. */
+void *kiln_queue_pop(struct kiln_queue *q);
+
+/* No more pushes; poppers drain what is left. */
+void kiln_queue_close(struct kiln_queue *q);
+
+#endif

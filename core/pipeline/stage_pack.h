@@ -1,0 +1,70 @@
+/* The pack stage: decode every item that has a split, prepare one fixed-size record each,
+ * write train/val/test .kten files at computed offsets, compute exact statistics, and write
+ * items.csv, catalog.csv, manifest.json and SHA256SUMS, all renamed into place only when
+ * complete. */
+#ifndef KILN_STAGE_PACK_H
+#define KILN_STAGE_PACK_H
+
+#include <jansson.h>
+#include <stdbool.h>
+
+#include "../catalog.h"
+#include "../err.h"
+#include "../recipe.h"
+#include "stage_scan.h"
+#include "../stats.h"
+
+struct kiln_pack_opts {
+    struct kiln_recipe recipe; /* finished (kiln_recipe_finish) */
+    const char *outdir;
+    unsigned jobs;
+    size_t queue_bytes;
+    const json_t *catalog_record; /* catalog.json (scan and split record) or NULL */
+    /* With recipe.hash_paths, every name reaches the outputs as "h:" + 32 hex digits of
+     * HMAC-SHA256(path_key, name) (core/names.h, docs/formats.md); names hashed already (a
+     * reproduced hashed output) stay as they are. */
+    const uint8_t *path_key; /* NULL: the public key "kiln-paths-v1" (docs: weaker) */
+    size_t path_key_len;
+    kiln_progress_fn progress;
+    void *progress_ctx;
+    /* kiln build: records prepared during scan (each item's pool_slot); no decoding here. */
+    struct kiln_record_pool *pool;
+};
+
+/* Temporary files that interrupted runs left in an output folder (docs/cli.md, "Interrupted
+ * runs"). */
+struct kiln_debris {
+    size_t removed;  /* files removed */
+    uint64_t bytes;  /* their total size */
+    size_t kept;     /* files of a process that is still running, left alone */
+};
+
+struct kiln_pack_report {
+    struct kiln_debris debris;   /* found when the output folder was prepared */
+    bool present[KILN_NSPLITS];  /* a file was written for the split */
+    size_t records[KILN_NSPLITS];
+    struct kiln_stats stats[KILN_NSPLITS];
+    size_t dct_reduced;          /* items decoded at a reduced scale */
+    uint64_t bytes_read;
+    size_t skipped;              /* catalogue rows not packed (not ok, or no split) */
+    size_t leaks, missing_classes; /* audit findings recorded in the manifest */
+};
+
+/* Packs cat (loaded, classes indexed, split assigned) into o->outdir. The folder is created if
+ * missing; it must be empty or hold an earlier kiln output, whose manifest is removed first so
+ * that a failed run never leaves a manifest describing files it did not write. */
+int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
+                    struct kiln_pack_report *rep, struct kiln_err *err);
+
+/* Creates outdir if needed and checks it is empty or an earlier kiln output, removes the
+ * temporary files interrupted kiln runs left there (counted in debris), then removes the old
+ * manifest and checksum list. */
+int kiln_pack_prepare_outdir(const char *outdir, struct kiln_debris *debris,
+                             struct kiln_err *err);
+
+struct kiln_record_pool;
+
+/* The names of the files pack writes, in the order SHA256SUMS lists them. */
+extern const char *const kiln_split_files[KILN_NSPLITS]; /* "train.kten", ... */
+
+#endif

@@ -1,0 +1,298 @@
+/* Reproduce stage. The old output's catalog.csv (checked against its manifest) holds every
+ * recorded fact about each item: its content digest, label, group, digests for duplicate
+ * detection and its split. Each item is found again in today's sources by content alone; pack
+ * then reads the bytes from there but records the original names, so an unchanged data set
+ * rebuilds to byte-identical files however the folders were reorganised. */
+#include "stage_reproduce.h"
+
+#include <jansson.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../../formats/files/catalog_csv.h"
+#include "../../formats/files/manifest.h"
+#include "../../formats/files/outfile.h"
+#include "../checked.h"
+#include "../names.h"
+#include "../split.h"
+#include "stage_index.h"
+#include "stage_pack.h"
+#include "stage_record.h"
+
+static void note(kiln_reproduce_fn fn, void *ctx, int kind, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+
+static void note(kiln_reproduce_fn fn, void *ctx, int kind, const char *fmt, ...)
+{
+    if (!fn)
+        return;
+    char msg[8400];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    fn(ctx, kind, msg);
+}
+
+static char *sibling(const char *manifest, const char *name)
+{
+    const char *slash = strrchr(manifest, '/');
+    size_t dl = slash ? (size_t)(slash - manifest) : 1;
+    char *s = malloc(dl + strlen(name) + 2);
+    if (s)
+        sprintf(s, "%.*s/%s", (int)dl, slash ? manifest : ".", name);
+    return s;
+}
+
+static const char *recorded_sha(const json_t *m, const char *name)
+{
+    size_t i;
+    json_t *o;
+    json_array_foreach(json_object_get(m, "outputs"), i, o)
+    {
+        const char *n = kiln_json_str(o, "name");
+        if (n && strcmp(n, name) == 0)
+            return kiln_json_str(o, "sha256");
+    }
+    return NULL;
+}
+
+static int file_hex(const char *path, char hex[KILN_SHA256_HEX], struct kiln_err *err)
+{
+    uint8_t d[KILN_SHA256_LEN];
+    uint64_t size;
+    int rc = kiln_file_sha256(path, d, &size, err);
+    if (!rc)
+        kiln_sha256_hex(d, hex);
+    return rc;
+}
+
+/* Adds one row to the comparison table: the recorded digest (given, or of the file at
+ * recorded_file) against the rebuilt file in outdir. */
+static void compare_output(const char *outdir, const char *name, const char *recorded,
+                           const char *recorded_file, struct kiln_reproduce_report *rep)
+{
+    struct kiln_reproduce_output *r = &rep->out[rep->noutputs++];
+    struct kiln_err e;
+    snprintf(r->name, sizeof r->name, "%s", name);
+    if (recorded)
+        snprintf(r->recorded, sizeof r->recorded, "%s", recorded);
+    else if (file_hex(recorded_file, r->recorded, &e) != 0)
+        snprintf(r->recorded, sizeof r->recorded, "(unreadable)");
+    size_t n = strlen(outdir) + strlen(name) + 2;
+    char *fp = malloc(n);
+    if (fp)
+        snprintf(fp, n, "%s/%s", outdir, name);
+    if (!fp || file_hex(fp, r->rebuilt, &e) != 0)
+        snprintf(r->rebuilt, sizeof r->rebuilt, "(not written)");
+    free(fp);
+    r->identical = strcmp(r->rebuilt, r->recorded) == 0;
+    rep->all_identical = rep->all_identical && r->identical;
+}
+
+static void compare_libraries(const json_t *m, kiln_reproduce_fn fn, void *ctx,
+                              struct kiln_reproduce_report *rep)
+{
+    json_t *now = kiln_library_versions_json();
+    const json_t *then = json_object_get(m, "libraries");
+    const char *key;
+    json_t *v;
+    json_object_foreach(now, key, v)
+    {
+        const char *old = kiln_json_str(then, key);
+        if (!old || strcmp(old, json_string_value(v)) != 0) {
+            rep->library_differs++;
+            note(fn, ctx, KILN_REPRO_LIBRARY, "%s %s was recorded, %s is in use now", key,
+                 old ? old : "(not recorded)", json_string_value(v));
+        }
+    }
+    json_decref(now);
+}
+
+/* Reruns the recorded split on the relocated catalogue and counts items that land elsewhere.
+ * Units are formed from content, so with every item found the split must not change. */
+static int rerun_split(struct kiln_catalog *cat, const json_t *split, kiln_reproduce_fn fn,
+                       void *ctx, struct kiln_reproduce_report *rep, struct kiln_err *err)
+{
+    struct kiln_split_params p;
+    int rc = kiln_split_params_from_record(split, &p, err);
+    if (rc)
+        return rc;
+    int8_t *was = kiln_alloc_array(cat->n ? cat->n : 1, 1);
+    uint64_t *key = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *key);
+    if (!was || !key) {
+        free(was);
+        free(key);
+        return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    }
+    for (size_t i = 0; i < cat->n; i++) {
+        was[i] = cat->items[i].split;
+        key[i] = cat->items[i].unit_key;
+    }
+    struct kiln_units units;
+    struct kiln_split_report srep;
+    rc = kiln_split_run(cat, &p, &units, &srep, err);
+    kiln_units_free(&units);
+    for (size_t i = 0; !rc && i < cat->n; i++) {
+        const struct kiln_item *it = &cat->items[i];
+        if (it->split != was[i] || (was[i] >= 0 && it->unit_key != key[i])) {
+            if (rep->split_differs++ < 20) {
+                char rel[4096];
+                kiln_item_relname(it->path, it->member, rel, sizeof rel);
+                note(fn, ctx, KILN_REPRO_SPLIT, "%s: recorded in %s, the rerun split gives %s",
+                     rel, was[i] >= 0 ? kiln_split_name(was[i]) : "no split",
+                     it->split >= 0 ? kiln_split_name(it->split) : "no split");
+            }
+        }
+    }
+    free(was);
+    free(key);
+    return rc;
+}
+
+int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn fn, void *ctx,
+                         struct kiln_reproduce_report *rep, struct kiln_err *err)
+{
+    memset(rep, 0, sizeof *rep);
+    json_t *m = NULL;
+    int rc = kiln_json_load(o->manifest, &m, err);
+    if (rc)
+        return rc;
+    char *cpath = sibling(o->manifest, "catalog.csv");
+    struct kiln_catalog cat;
+    kiln_catalog_init(&cat);
+    struct kiln_index idx;
+    memset(&idx, 0, sizeof idx);
+    kiln_arena_init(&idx.strings);
+    json_t *record = NULL;
+    uint32_t *moved = NULL; /* items found elsewhere than recorded */
+    struct kiln_pack_opts po;
+    memset(&po, 0, sizeof po);
+    const char *want = recorded_sha(m, "catalog.csv");
+    char hex[KILN_SHA256_HEX];
+    if (!cpath)
+        rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    else if (!want)
+        rc = kiln_err_set(err, KILN_EINVAL, "%s lists no catalog.csv output", o->manifest);
+    if (!rc)
+        rc = file_hex(cpath, hex, err);
+    if (!rc && strcmp(hex, want) != 0)
+        rc = kiln_err_set(err, KILN_EMISMATCH,
+                          "%s does not match the SHA-256 in %s; the record is damaged", cpath,
+                          o->manifest);
+    if (!rc)
+        rc = kiln_recipe_from_json(json_object_get(m, "recipe"), &po.recipe, err);
+    bool has_split;
+    if (!rc)
+        rc = kiln_catalog_csv_load(cpath, &cat, &has_split, err);
+    if (!rc)
+        rc = kiln_catalog_index_classes(&cat, err);
+    if (rc)
+        goto out;
+    compare_libraries(m, fn, ctx, rep);
+    kiln_arena_free(&idx.strings);
+    rc = kiln_index_build(o->sources, o->nsources, false, &idx, err);
+    if (!rc && !(moved = kiln_alloc_array(cat.n ? cat.n : 1, sizeof *moved)))
+        rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    if (rc)
+        goto out;
+    /* Each item is read from its recorded place when that still holds its content (exact
+     * duplicates elsewhere do not make it "moved"); else from the first copy found. */
+    struct kiln_names names;
+    kiln_names_init(&names, po.recipe.hash_paths, o->path_key, o->path_key_len);
+    size_t in_place = 0;
+    for (size_t i = 0; i < cat.n; i++) {
+        struct kiln_item *it = &cat.items[i];
+        if (it->split == KILN_SPLIT_NONE)
+            continue;
+        rep->items++;
+        const struct kiln_index_entry *hit;
+        bool at_place;
+        rc = kiln_index_locate(&idx, it, &names, &hit, &at_place, err);
+        if (rc)
+            goto out;
+        char rel[4096];
+        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        if (!hit) {
+            rep->missing++;
+            char sha[KILN_SHA256_HEX];
+            kiln_sha256_hex(it->sha256, sha);
+            note(fn, ctx, KILN_REPRO_MISSING, "%s (%s, SHA-256 %s) is in no source", rel,
+                 kiln_split_name(it->split), sha);
+            if (o->allow_missing)
+                it->split = KILN_SPLIT_NONE;
+            continue;
+        }
+        rep->found++;
+        it->from_source = hit->source;
+        it->from_path = hit->path;
+        it->from_member = hit->member;
+        in_place += at_place;
+        if (!at_place)
+            moved[rep->moved++] = (uint32_t)i;
+    }
+    /* Under the public key nothing in place, names hashed and no key given: the names were
+     * most likely hashed with a secret key, and "moved" would be a guess. */
+    rep->places_unknown = po.recipe.hash_paths && !o->path_key && rep->moved && !in_place;
+    if (rep->places_unknown)
+        rep->moved = 0;
+    for (size_t k = 0; k < rep->moved; k++) {
+        const struct kiln_item *it = &cat.items[moved[k]];
+        char rel[4096], now[4096];
+        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        kiln_item_relname(it->from_path, it->from_member, now, sizeof now);
+        note(fn, ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from_source, now);
+    }
+    if (rep->missing && !o->allow_missing) {
+        rc = kiln_err_set(err, KILN_EMISMATCH,
+                          "%zu of %zu recorded items are in no source; nothing rebuilt "
+                          "(--allow-missing rebuilds without them)",
+                          rep->missing, rep->items);
+        goto out;
+    }
+    /* Rerun the recorded split, unless it depended on an earlier output (--keep) or items are
+     * missing (which would reshuffle exact-mode dealing): then the recorded splits stand. */
+    json_t *split = json_object_get(m, "split");
+    /* Hashed group keys (--hash-paths) no longer give the unit ids either. */
+    if (json_is_object(split) && json_is_null(json_object_get(split, "keep")) && !rep->missing &&
+        !po.recipe.hash_paths) {
+        rc = rerun_split(&cat, split, fn, ctx, rep, err);
+        if (rc)
+            goto out;
+    }
+    record = json_object();
+    json_object_set(record, "scan", json_object_get(m, "scan"));
+    json_object_set(record, "split", split);
+    po.outdir = o->outdir;
+    po.jobs = o->jobs;
+    po.catalog_record = record;
+    po.progress = o->progress;
+    po.progress_ctx = o->progress_ctx;
+    struct kiln_pack_report prep;
+    rc = kiln_stage_pack(&cat, &po, &prep, err);
+    rep->debris = prep.debris;
+    if (rc)
+        goto out;
+    /* Compare every recorded output, and the manifest itself. */
+    rep->all_identical = true;
+    size_t i;
+    json_t *ob;
+    json_array_foreach(json_object_get(m, "outputs"), i, ob)
+    {
+        const char *name = kiln_json_str(ob, "name"), *sha = kiln_json_str(ob, "sha256");
+        if (name && sha && rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
+            compare_output(o->outdir, name, sha, NULL, rep);
+    }
+    if (rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
+        compare_output(o->outdir, "manifest.json", NULL, o->manifest, rep);
+out:
+    free(moved);
+    json_decref(record);
+    kiln_catalog_free(&cat); /* before the index: items point into its strings */
+    kiln_index_free(&idx);
+    free(cpath);
+    json_decref(m);
+    return rc;
+}

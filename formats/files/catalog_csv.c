@@ -1,0 +1,269 @@
+/* catalog.csv reader and writer. */
+#include "catalog_csv.h"
+
+#include <errno.h>
+#include <inttypes.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../../core/textesc.h"
+#include "csv.h"
+#include "../decoders/decoder.h"
+#include "outfile.h"
+
+enum col {
+    C_SOURCE, C_PATH, C_MEMBER, C_SIZE, C_SHA256, C_FORMAT, C_WIDTH, C_HEIGHT, C_CHANNELS,
+    C_DEPTH, C_STORED_DEPTH, C_ORIENTATION, C_PAGES, C_NOTES, C_LABEL, C_CLASS, C_GROUP, C_STATUS,
+    C_REASON, C_PIXEL_SHA256, C_PHASH, C_PIXEL_SCALE, C_UNIT, C_SPLIT, C_COUNT
+};
+
+static const char *const col_names[C_COUNT] = {
+    "source", "path", "member", "size", "sha256", "format", "width", "height", "channels",
+    "depth", "stored_depth", "orientation", "pages", "notes", "label", "class", "group", "status",
+    "reason", "pixel_sha256", "phash", "pixel_scale", "unit", "split",
+};
+
+static void text_field(FILE *f, const char *s, int first)
+{
+    if (kiln_text_is_plain(s)) {
+        kiln_csv_field(f, s, first);
+        return;
+    }
+    char *e = kiln_text_escape(s);
+    kiln_csv_field(f, e ? e : "", first);
+    free(e);
+}
+
+int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_err *err)
+{
+    for (int c = 0; c < C_COUNT; c++)
+        kiln_csv_field(f, col_names[c], c == 0);
+    kiln_csv_end_row(f);
+    for (size_t i = 0; i < cat->n; i++) {
+        const struct kiln_item *it = &cat->items[i];
+        const bool ok = it->status == KILN_ST_OK;
+        const bool img = it->format[0] != 0 && it->width; /* header fields known */
+        char sha[KILN_SHA256_HEX], psha[KILN_SHA256_HEX];
+        kiln_sha256_hex(it->sha256, sha);
+        kiln_sha256_hex(it->pixel_sha256, psha);
+        text_field(f, it->source, 1);
+        text_field(f, it->path, 0);
+        text_field(f, it->member, 0);
+        fprintf(f, ",%" PRIu64 ",%s,", it->size, it->has_sha || ok ? sha : "");
+        kiln_csv_field(f, it->format, 1);
+        if (img)
+            fprintf(f, ",%u,%u,%u,%u,%u,%u,%u", it->width, it->height, it->channels, it->depth,
+                    it->stored_depth, it->orientation, it->pages);
+        else
+            fputs(",,,,,,,", f);
+        text_field(f, it->notes, 0);
+        text_field(f, it->label, 0);
+        if (it->class_index >= 0)
+            fprintf(f, ",%" PRId32 ",", it->class_index);
+        else
+            fputs(",,", f);
+        text_field(f, it->group, 1);
+        fprintf(f, ",%s,", kiln_status_name(it->status));
+        text_field(f, it->reason, 1);
+        if (it->has_pixels)
+            fprintf(f, ",%s,%016" PRIx64 ",%u", psha, it->phash,
+                    it->pixel_scale ? it->pixel_scale : 1u);
+        else
+            fputs(",,,", f);
+        if (it->split >= 0)
+            fprintf(f, ",%016" PRIx64 ",%s", it->unit_key, kiln_split_name(it->split));
+        else
+            fputs(",,", f);
+        kiln_csv_end_row(f);
+    }
+    if (ferror(f))
+        return kiln_err_sys(err, KILN_EIO, errno, "cannot write the catalogue");
+    return KILN_OK;
+}
+
+int kiln_catalog_csv_save(const char *path, const struct kiln_catalog *cat, struct kiln_err *err)
+{
+    struct kiln_outfile of;
+    int rc = kiln_outfile_open(&of, path, err);
+    if (rc)
+        return rc;
+    FILE *f = kiln_outfile_stream(&of, err);
+    if (!f) {
+        kiln_outfile_abort(&of);
+        return KILN_EIO;
+    }
+    rc = kiln_catalog_csv_write(f, cat, err);
+    if (rc) {
+        kiln_err_prefix(err, "%s", path);
+        kiln_outfile_abort(&of);
+        return rc;
+    }
+    return kiln_outfile_commit(&of, err);
+}
+
+static int parse_u64(const char *s, uint64_t *v, int base)
+{
+    if (!*s)
+        return -1;
+    char *end;
+    errno = 0;
+    unsigned long long x = strtoull(s, &end, base);
+    if (*end || errno || s[0] == '-' || s[0] == '+' || s[0] == ' ')
+        return -1;
+    *v = x;
+    return 0;
+}
+
+static int parse_u32(const char *s, uint32_t *v, uint32_t max)
+{
+    uint64_t x;
+    if (parse_u64(s, &x, 10) || x > max)
+        return -1;
+    *v = (uint32_t)x;
+    return 0;
+}
+
+int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_split,
+                          struct kiln_err *err)
+{
+    struct kiln_csv_reader r;
+    int rc = kiln_csv_open(&r, path, err);
+    if (rc)
+        return rc;
+    *has_split = false;
+    int idx[C_COUNT];
+    for (int c = 0; c < C_COUNT; c++)
+        idx[c] = -1;
+    int got = kiln_csv_next(&r, err);
+    if (got <= 0) {
+        kiln_csv_close(&r);
+        if (got == 0)
+            return kiln_err_set(err, KILN_EINVAL, "%s is empty, not a catalogue", path);
+        return -got;
+    }
+    for (size_t i = 0; i < r.nfields; i++)
+        for (int c = 0; c < C_COUNT; c++)
+            if (strcmp(r.fields[i], col_names[c]) == 0)
+                idx[c] = (int)i;
+    static const int required[] = {C_SOURCE, C_PATH, C_MEMBER, C_SIZE, C_SHA256, C_STATUS};
+    for (size_t k = 0; k < sizeof required / sizeof required[0]; k++)
+        if (idx[required[k]] < 0) {
+            kiln_csv_close(&r);
+            return kiln_err_set(err, KILN_EINVAL, "%s: no '%s' column; is this a kiln catalogue?",
+                                path, col_names[required[k]]);
+        }
+    char *text[C_COUNT];
+    while ((got = kiln_csv_next(&r, err)) == 1) {
+        const size_t line = r.line;
+        if (r.nfields == 1 && r.fields[0][0] == '\0')
+            continue; /* blank line */
+        const char *v[C_COUNT];
+        for (int c = 0; c < C_COUNT; c++)
+            v[c] = idx[c] >= 0 && (size_t)idx[c] < r.nfields ? r.fields[idx[c]] : "";
+        struct kiln_item it;
+        memset(&it, 0, sizeof it);
+        it.class_index = -1;
+        it.split = KILN_SPLIT_NONE;
+        it.pool_slot = UINT32_MAX;
+        const char *bad = NULL;
+        static const int texts[] = {C_SOURCE, C_PATH, C_MEMBER, C_FORMAT, C_LABEL, C_GROUP,
+                                    C_REASON, C_NOTES};
+        memset(text, 0, sizeof text);
+        for (size_t k = 0; k < sizeof texts / sizeof texts[0] && !bad; k++)
+            if (kiln_text_unescape(v[texts[k]], &text[texts[k]], NULL) != 0)
+                bad = col_names[texts[k]];
+        uint32_t u;
+        uint64_t x;
+        int st = kiln_status_parse(v[C_STATUS]);
+        /* A decoder's name or nothing: pack looks the decoder up by this name, and a name
+         * that is not one would not survive being written back (it is not escaped). */
+        if (!bad && text[C_FORMAT][0] && !kiln_decoder_by_name(text[C_FORMAT]))
+            bad = "format";
+        if (!bad && parse_u64(v[C_SIZE], &it.size, 10))
+            bad = "size";
+        if (!bad && st < 0)
+            bad = "status";
+        if (!bad && v[C_SHA256][0] && kiln_sha256_parse(v[C_SHA256], it.sha256))
+            bad = "sha256";
+        it.has_sha = v[C_SHA256][0] != 0;
+        if (!bad && st == KILN_ST_OK && !v[C_SHA256][0])
+            bad = "sha256";
+        if (!bad && v[C_WIDTH][0]) {
+            if (parse_u32(v[C_WIDTH], &it.width, UINT32_MAX))
+                bad = "width";
+            else if (parse_u32(v[C_HEIGHT], &it.height, UINT32_MAX))
+                bad = "height";
+            else if (parse_u32(v[C_CHANNELS], &u, 4) || u < 1)
+                bad = "channels";
+            else if ((it.channels = (uint8_t)u, parse_u32(v[C_DEPTH], &u, 16)) ||
+                     (u != 8 && u != 16))
+                bad = "depth";
+            else if ((it.depth = (uint8_t)u, parse_u32(v[C_STORED_DEPTH], &u, 64)))
+                bad = "stored_depth";
+            else if ((it.stored_depth = (uint8_t)u, parse_u32(v[C_ORIENTATION], &u, 8)) || u < 1)
+                bad = "orientation";
+            else if ((it.orientation = (uint8_t)u, parse_u32(v[C_PAGES], &u, UINT16_MAX)))
+                bad = "pages";
+            else
+                it.pages = (uint16_t)u;
+        }
+        if (!bad && v[C_CLASS][0]) {
+            if (parse_u32(v[C_CLASS], &u, INT32_MAX))
+                bad = "class";
+            else
+                it.class_index = (int32_t)u;
+        }
+        if (!bad && v[C_PIXEL_SHA256][0]) {
+            if (kiln_sha256_parse(v[C_PIXEL_SHA256], it.pixel_sha256) ||
+                parse_u64(v[C_PHASH], &it.phash, 16) || strlen(v[C_PHASH]) != 16)
+                bad = "pixel_sha256/phash";
+            else
+                it.has_pixels = 1;
+            it.pixel_scale = 1;
+            if (v[C_PIXEL_SCALE][0]) {
+                if (parse_u32(v[C_PIXEL_SCALE], &u, 8) || (u != 1 && u != 2 && u != 4 && u != 8))
+                    bad = "pixel_scale";
+                else
+                    it.pixel_scale = (uint8_t)u;
+            }
+        }
+        if (!bad && v[C_SPLIT][0]) {
+            int sp = kiln_split_parse(v[C_SPLIT]);
+            if (sp < 0 || parse_u64(v[C_UNIT], &x, 16) || strlen(v[C_UNIT]) != 16)
+                bad = "split/unit";
+            else {
+                it.split = (int8_t)sp;
+                it.unit_key = x;
+                *has_split = true;
+            }
+        }
+        if (!bad && st != KILN_ST_OK && it.split != KILN_SPLIT_NONE)
+            bad = "split (a row that is not ok cannot be in a split)";
+        if (bad) {
+            for (int c = 0; c < C_COUNT; c++)
+                free(text[c]);
+            kiln_csv_close(&r);
+            return kiln_err_set(err, KILN_EINVAL, "%s:%zu: bad %s value", path, line, bad);
+        }
+        it.status = (uint8_t)st;
+        it.source = text[C_SOURCE];
+        it.path = text[C_PATH];
+        it.member = text[C_MEMBER];
+        it.format = text[C_FORMAT];
+        it.label = text[C_LABEL];
+        it.group = text[C_GROUP];
+        it.reason = text[C_REASON];
+        it.notes = text[C_NOTES];
+        rc = kiln_catalog_add(cat, &it, err);
+        for (int c = 0; c < C_COUNT; c++)
+            free(text[c]);
+        if (rc) {
+            kiln_csv_close(&r);
+            return rc;
+        }
+    }
+    kiln_csv_close(&r);
+    if (got < 0)
+        return -got;
+    return KILN_OK;
+}

@@ -1,0 +1,41 @@
+/* Output files that never look complete before they are: written under a temporary hidden name
+ * in the destination folder, flushed and fsync'ed, then renamed into place. */
+#ifndef KILN_OUTFILE_H
+#define KILN_OUTFILE_H
+
+#include <stdbool.h>
+#include <stdio.h>
+
+#include "../../core/err.h"
+
+struct kiln_outfile {
+    char *final_path;
+    char *tmp_path;
+    int fd;
+    FILE *f; /* stream over fd, for text writers; NULL until kiln_outfile_stream */
+};
+
+/* Creates "<dir>/.<name>.tmp-<pid>-<n>" next to final_path. */
+int kiln_outfile_open(struct kiln_outfile *of, const char *final_path, struct kiln_err *err);
+/* Whether name (no folder) is a temporary name kiln_outfile_open makes for the final name
+ * base; sets *pid to the process that made it. */
+bool kiln_outfile_is_temp_name(const char *name, const char *base, long *pid);
+/* Gives a stdio stream on the file (owned by of). */
+FILE *kiln_outfile_stream(struct kiln_outfile *of, struct kiln_err *err);
+/* Flushes, fsyncs, closes and renames into place, then fsyncs the folder. Checks every step;
+ * on failure the temporary file is removed. Frees of's strings either way. */
+int kiln_outfile_commit(struct kiln_outfile *of, struct kiln_err *err);
+/* Closes and removes the temporary file (safe to call after a failed commit or twice). */
+void kiln_outfile_abort(struct kiln_outfile *of);
+
+/* Writes a whole buffer at an offset, retrying short writes. */
+int kiln_pwrite_all(int fd, const void *buf, size_t len, long long off, struct kiln_err *err);
+
+/* fsyncs a folder so a rename inside it is durable. */
+int kiln_fsync_dir(const char *dir, struct kiln_err *err);
+
+/* SHA-256 and size of a whole file, read in 1 MiB blocks. */
+#include <stdint.h>
+int kiln_file_sha256(const char *path, uint8_t out[32], uint64_t *size, struct kiln_err *err);
+
+#endif
