@@ -1,6 +1,5 @@
 /* kiln audit: report every group, identical file, identical picture and near-identical picture
  * that spans two splits, and classes missing from a split. */
-#include <getopt.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -10,50 +9,54 @@
 #include "../formats/files/catalog_csv.h"
 #include "cmd.h"
 
-static void help(void)
+static int set_near(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
-    printf("usage: kiln audit OUTDIR | catalog.csv [options]\n\n"
-           "Lists every group (one specimen), set of identical files, set of identical decoded\n"
-           "pictures and cluster of near-identical pictures (linked by pairs of difference hashes\n"
-           "within BITS bits) whose items lie in different splits, with the items, and warns\n"
-           "about classes missing from a split. Exit status 6 when\n"
-           "anything spans two splits, 0 otherwise.\n\n"
-           "options:\n"
-           "  --near BITS          near-duplicate radius in bits of the difference hash\n"
-           "                       (default 6, 0 to 16)\n"
-           "  --no-near            check groups and identical content only\n"
-           "  -q, --quiet          print only problems: no progress, no summary\n"
-           "  -h, --help           this text\n");
+    char *end;
+    long n = strtol(v, &end, 10);
+    if (!*v || *end || n < 0 || n > 16)
+        return cli_bad_value(o, v, "use a number of bits from 0 to 16");
+    *(int *)a->own = (int)n;
+    return 0;
 }
 
-int cmd_audit(int argc, char **argv)
+static int set_no_near(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
-    static const struct option longopts[] = {
-        {"near", required_argument, NULL, 'n'}, {"no-near", no_argument, NULL, 'N'},
-        {"quiet", no_argument, NULL, 'q'},      {"help", no_argument, NULL, 'h'},
-        {NULL, 0, NULL, 0}};
-    int near = 6, c;
-    bool quiet = false;
-    while ((c = cli_getopt("audit", argc, argv, "qh", longopts, NULL)) != -1) {
-        switch (c) {
-        case 'n': {
-            char *end;
-            long v = strtol(optarg, &end, 10);
-            if (!*optarg || *end || v < 0 || v > 16)
-                return cli_usage_error("audit", "bad --near '%s': use a number of bits from 0 to 16",
-                                       optarg);
-            near = (int)v;
-            break;
-        }
-        case 'N': near = -1; break;
-        case 'q': quiet = true; break;
-        case 'h': help(); return KILN_EXIT_OK;
-        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
-        }
-    }
-    if (optind + 1 != argc)
-        return cli_usage_error("audit", "name one output folder or catalogue");
-    const char *arg = argv[optind];
+    (void)o, (void)v;
+    *(int *)a->own = -1;
+    return 0;
+}
+
+static const struct cli_opt opts[] = {
+    CLI_HEADING("options:"),
+    {"near", 0, CLI_VALUE, "BITS",
+     "near-duplicate radius in bits of the difference hash\n(default 6, 0 to 16)", set_near},
+    {"no-near", 0, CLI_SWITCH, NULL, "check groups and identical content only", set_no_near},
+    CLI_OPT_QUIET,
+    CLI_OPT_HELP,
+    CLI_OPT_END,
+};
+
+static int cmd_audit(int argc, char **argv);
+
+const struct cli_command cli_audit = {
+    .name = "audit",
+    .summary = "report groups, duplicates and near duplicates that span splits",
+    .usage = "audit OUTDIR | catalog.csv [options]",
+    .about = "Lists every group (one specimen), set of identical files, set of identical decoded\n"
+             "pictures and cluster of near-identical pictures (linked by pairs of difference hashes\n"
+             "within BITS bits) whose items lie in different splits, with the items, and warns\n"
+             "about classes missing from a split. Exit status 6 when\n"
+             "anything spans two splits, 0 otherwise.\n",
+    .opts = opts,
+    .min_args = 1,
+    .max_args = 1,
+    .args_error = "name one output folder or catalogue",
+    .main = cmd_audit,
+};
+
+/* Everything after option parsing; returns the exit status. */
+static int audit(const char *arg, int near, bool quiet)
+{
     struct stat st;
     char *path = NULL;
     if (stat(arg, &st) == 0 && S_ISDIR(st.st_mode)) {
@@ -103,4 +106,15 @@ int cmd_audit(int argc, char **argv)
     kiln_catalog_free(&cat);
     free(path);
     return exit_code;
+}
+
+static int cmd_audit(int argc, char **argv)
+{
+    int near = 6;
+    struct cli_args a = {.own = &near};
+    int code = cli_parse(&cli_audit, argc, argv, &a);
+    if (code == CLI_GO)
+        code = audit(a.argv[0], near, a.quiet);
+    cli_args_free(&a);
+    return code;
 }

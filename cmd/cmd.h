@@ -1,17 +1,7 @@
-/* The command-line layer: one file per subcommand, each exporting cmd_<name>() whose return
- * value is the process exit status. Only this layer prints or picks exit codes.
- *
- * Adding a subcommand:
- *   1. Write cmd/<name>.c with int cmd_<name>(int argc, char **argv); argv[0] is the name.
- *   2. Parse options with cli_getopt (getopt_long with kiln's messages); every subcommand
- *      takes --help, --quiet (docs/cli.md: the same rule everywhere) and, when it does
- *      parallel work, --jobs N. A bad option value is a usage error (exit 2); a file named by
- *      an option that cannot be read is bad input (exit 3). Share option parsing through the
- *      cli_* helpers below.
- *   3. Call core/ and formats/ only through their headers; print messages with cli_error or
- *      cli_warn and return one of the KILN_EXIT_* codes (docs/cli.md lists them).
- *   4. Add the command to the table in cmd/kiln.c, to CMakeLists.txt, and to docs/cli.md.
- *   5. Add tests/cli/<name>_*.sh cases. */
+/* The command-line layer: one file per subcommand, each defining a struct cli_command (its
+ * usage, help text, option table and function). Only this layer prints or picks exit codes;
+ * the work is done by the pipeline's public functions (core/pipeline/stage_*.h). How to add an
+ * option or a command: DEVELOPERS.md, "Adding an option" and "Adding a subcommand". */
 #ifndef KILN_CMD_H
 #define KILN_CMD_H
 
@@ -36,26 +26,103 @@ enum {
     KILN_EXIT_DIFFERS = 7,  /* reproduce: rebuilt outputs are not byte-identical */
 };
 
-int cmd_scan(int argc, char **argv);
-int cmd_split(int argc, char **argv);
-int cmd_pack(int argc, char **argv);
-int cmd_build(int argc, char **argv);
-int cmd_verify(int argc, char **argv);
-int cmd_inspect(int argc, char **argv);
-int cmd_audit(int argc, char **argv);
-int cmd_reproduce(int argc, char **argv);
+/* ---- commands and their options (cmd/options.c) ---------------------------------------- */
+
+/* What a command has parsed: the options every command may take, pointers to the option groups
+ * it takes (NULL where it takes none), its own options, and the arguments left over. */
+struct cli_args {
+    const struct cli_command *cmd;
+    bool quiet;
+    unsigned jobs;             /* --jobs, or the online CPUs */
+    const char *output;        /* -o */
+    const char **sources;      /* -s/--source, repeatable (nsources of them) */
+    size_t nsources;
+    uint8_t *path_key;         /* --path-key FILE's bytes (malloc'ed), NULL without */
+    size_t path_key_len;
+    struct kiln_scan_opts *scan;     /* cli_scan_group's options */
+    struct kiln_split_params *split; /* cli_split_group's */
+    struct kiln_recipe *recipe;      /* cli_recipe_group's and cli_limit_group's */
+    void *own;                 /* the command's own options; its handlers know the type */
+    int argc;                  /* arguments that are not options, in order */
+    char **argv;
+    bool seen[64];             /* per option, in table order with groups spliced in: given */
+    bool help;
+};
+
+enum cli_arg { CLI_SWITCH, CLI_VALUE, CLI_OPTIONAL };
+
+/* One option: its names, its help, and the function that applies it. The table of a command
+ * drives both parsing and --help, so every option is named once. */
+struct cli_opt {
+    const char *name;  /* long name without "--"; NULL: a heading in --help (help = its title,
+                        * "" for a blank line), or an include */
+    char letter;       /* short form, or 0 */
+    enum cli_arg arg;
+    const char *value; /* what the value looks like in --help: "N", "WxH | S" */
+    const char *help;  /* lines separated by '\n' */
+    /* Applies the option (value NULL for a switch or an absent optional value): returns 0, or
+     * an exit status after printing why (a bad value: cli_bad_value, exit 2). */
+    int (*set)(struct cli_args *a, const struct cli_opt *o, const char *value);
+    const char *required; /* the usage error when the option is missing; NULL: optional */
+    const struct cli_opt *include; /* instead of an option: a group spliced in here */
+};
+
+struct cli_command {
+    const char *name;    /* "scan" */
+    const char *summary; /* one line for `kiln --help` */
+    const char *usage;   /* after "usage: kiln " */
+    const char *about;   /* paragraphs after the usage line, each line ending in '\n' */
+    const struct cli_opt *opts; /* ends with CLI_OPT_END */
+    int min_args, max_args;     /* arguments that are not options (max -1: any number) */
+    const char *args_error;     /* the usage error when their number is wrong */
+    /* The command: sets up its option structs, calls cli_parse with this table, does the work
+     * through the pipeline and returns the exit status. argv[0] is the command's name. */
+    int (*main)(int argc, char **argv);
+};
 
 /* The command being run ("scan", ...), for messages; set by main before dispatching. */
-extern const char *cli_command;
+extern const char *cli_cmd_name;
 
-/* getopt_long with kiln's messages (cmd/options.c): returns what getopt_long returns, or
- * CLI_OPT_ERROR after printing a usage error that names the option and what is wrong with it:
- * unknown, ambiguous abbreviation, missing value, value given to a switch, or an optional value
- * written after a space instead of '=' (docs/cli.md, "Options"). */
-#define CLI_OPT_ERROR (-2)
-struct option;
-int cli_getopt(const char *cmd, int argc, char **argv, const char *shortopts,
-               const struct option *longopts, int *longindex);
+extern const struct cli_command cli_scan, cli_split, cli_pack, cli_build, cli_audit,
+    cli_verify, cli_reproduce, cli_inspect;
+
+/* Parses argv (argv[0] is the command's name) by c's table into a (whose group pointers and own
+ * options the caller has set, with their defaults): applies every option, checks the number of
+ * arguments and the required options. Returns CLI_GO to go on, or the exit status to return:
+ * 0 after printing --help, 2 after a usage error, 3 or 1 when an option's file cannot be read.
+ * cli_args_free releases what parsing allocated, in every case. */
+#define CLI_GO (-1)
+int cli_parse(const struct cli_command *c, int argc, char **argv, struct cli_args *a);
+void cli_args_free(struct cli_args *a);
+/* Prints c's --help on f. */
+void cli_help(FILE *f, const struct cli_command *c);
+
+/* Reports a bad option value ("bad --NAME 'VALUE': <why>") as a usage error; returns 2. */
+int cli_bad_value(const struct cli_opt *o, const char *value, const char *why);
+
+/* Handlers and entries shared by several commands. */
+int cli_set_output(struct cli_args *a, const struct cli_opt *o, const char *value);
+int cli_set_source(struct cli_args *a, const struct cli_opt *o, const char *value);
+int cli_set_path_key(struct cli_args *a, const struct cli_opt *o, const char *value);
+int cli_set_jobs(struct cli_args *a, const struct cli_opt *o, const char *value);
+int cli_set_quiet(struct cli_args *a, const struct cli_opt *o, const char *value);
+int cli_set_help(struct cli_args *a, const struct cli_opt *o, const char *value);
+
+#define CLI_OPT_JOBS {"jobs", 'j', CLI_VALUE, "N", "worker threads (default: online CPUs)", \
+                      cli_set_jobs}
+#define CLI_OPT_QUIET {"quiet", 'q', CLI_SWITCH, NULL, \
+                       "print only problems: no progress, no summary", cli_set_quiet}
+#define CLI_OPT_HELP {"help", 'h', CLI_SWITCH, NULL, "this text", cli_set_help}
+#define CLI_OPT_END {NULL, 0, CLI_SWITCH, NULL, NULL, NULL, NULL, NULL}
+/* A heading line in --help ("" for a blank line). */
+#define CLI_HEADING(title) {NULL, 0, CLI_SWITCH, NULL, title, NULL, NULL, NULL}
+#define CLI_INCLUDE(group) {NULL, 0, CLI_SWITCH, NULL, NULL, NULL, NULL, group}
+
+/* The option groups shared by several commands (cmd/options.c), for a table's include: scan's
+ * rules, the pixel limits (scan, pack, build), split's parameters and the recipe (pack, build,
+ * with --path-key). Their handlers fill a->scan, a->recipe and a->split. */
+extern const struct cli_opt cli_scan_group[], cli_limit_group[], cli_split_group[],
+    cli_recipe_group[];
 
 /* Checks before any work that an output file can be created: its folder exists, is a folder
  * and is writable. Prints the error naming path and returns its exit status, or returns 0. */
@@ -73,7 +140,6 @@ int cli_usage_error(const char *cmd, const char *fmt, ...) __attribute__((format
 
 /* Online CPUs, at least 1. */
 unsigned cli_default_jobs(void);
-int cli_parse_jobs(const char *text, unsigned *jobs);
 
 /* Progress on stderr, only when it is a terminal and --quiet is off. */
 struct cli_progress {
@@ -86,31 +152,15 @@ void cli_progress_update(void *ctx, const struct kiln_progress *p);
 void cli_progress_done(struct cli_progress *p);
 double cli_elapsed(const struct cli_progress *p);
 
-/* Shared option handlers: return 1 when the option belongs to the group (and was applied),
- * 0 when it does not, or -1 after printing an error. */
-int cli_scan_option(struct kiln_scan_opts *o, const char *name, const char *arg);
-int cli_split_option(struct kiln_split_params *p, const char *name, const char *arg);
-int cli_recipe_option(struct kiln_recipe *r, const char *name, const char *arg);
-
 /* Copies the source arguments with trailing slashes removed, so "data/" and "data" name the
  * same source; NULL when memory runs out (nothing is left allocated). */
 char **cli_sources_new(int n, char **argv);
 void cli_sources_free(char **sources, int n);
 
-/* Reads a --path-key file (at most 1 MiB, not empty) into *key (freeing what *key held; NULL
- * at first). Returns 0, or prints why not and returns the exit status (3: the file cannot be
- * read, is empty or too large). */
-int cli_read_path_key(const char *file, uint8_t **key, size_t *len);
-
-/* Split parameters with their defaults (80:10:10, exact, no near-duplicate merging). */
-void cli_split_defaults(struct kiln_split_params *p);
-/* Loads --keep (if given), runs the split over cat and reports problems; returns an exit
- * code. Shared by split and build. */
+/* Runs the split stage over cat (kiln_stage_split) and reports what went wrong or moved
+ * (--keep-conflicts test); returns an exit status. Shared by split and build. */
 int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
                       struct kiln_units *units, struct kiln_split_report *rep);
-
-/* Help text of each option group, shared by the commands that take it. */
-extern const char cli_scan_help[], cli_split_help[], cli_recipe_help[];
 
 /* cmd/summary.c. What scan (and build) found: counts per status, the first unusable rows,
  * skipped files, multi-page files, group rule and labels CSV matches, on f unless quiet; and

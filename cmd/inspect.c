@@ -1,5 +1,4 @@
 /* kiln inspect: print a .kten file's header, arrays, class map and statistics. */
-#include <getopt.h>
 #include <inttypes.h>
 #include <jansson.h>
 #include <string.h>
@@ -9,16 +8,35 @@
 #include "../formats/files/manifest.h"
 #include "cmd.h"
 
-static void help(void)
+static int set_json(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
-    printf("usage: kiln inspect FILE.kten [options]\n\n"
-           "Prints the header, the array table (name, type, shape, offset, length, SHA-256),\n"
-           "the class map and the statistics stored in the metadata block.\n\n"
-           "options:\n"
-           "  --json               print the metadata block as JSON instead\n"
-           "  -q, --quiet          print only problems: no progress, no summary\n"
-           "  -h, --help           this text\n");
+    (void)o, (void)v;
+    *(bool *)a->own = true;
+    return 0;
 }
+
+static const struct cli_opt opts[] = {
+    CLI_HEADING("options:"),
+    {"json", 0, CLI_SWITCH, NULL, "print the metadata block as JSON instead", set_json},
+    CLI_OPT_QUIET,
+    CLI_OPT_HELP,
+    CLI_OPT_END,
+};
+
+static int cmd_inspect(int argc, char **argv);
+
+const struct cli_command cli_inspect = {
+    .name = "inspect",
+    .summary = "show the header, arrays and statistics of a .kten file",
+    .usage = "inspect FILE.kten [options]",
+    .about = "Prints the header, the array table (name, type, shape, offset, length, SHA-256),\n"
+             "the class map and the statistics stored in the metadata block.\n",
+    .opts = opts,
+    .min_args = 1,
+    .max_args = 1,
+    .args_error = "name exactly one .kten file",
+    .main = cmd_inspect,
+};
 
 static void print_stats(const json_t *st, const char *title)
 {
@@ -48,25 +66,9 @@ static void print_stats(const json_t *st, const char *title)
     }
 }
 
-int cmd_inspect(int argc, char **argv)
+/* Everything after option parsing; returns the exit status. */
+static int inspect(const char *path, bool as_json, bool quiet)
 {
-    static const struct option longopts[] = {{"json", no_argument, NULL, 'J'},
-                                             {"quiet", no_argument, NULL, 'q'},
-                                             {"help", no_argument, NULL, 'h'},
-                                             {NULL, 0, NULL, 0}};
-    bool as_json = false, quiet = false;
-    int c;
-    while ((c = cli_getopt("inspect", argc, argv, "qh", longopts, NULL)) != -1) {
-        switch (c) {
-        case 'J': as_json = true; break;
-        case 'q': quiet = true; break;
-        case 'h': help(); return KILN_EXIT_OK;
-        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
-        }
-    }
-    if (optind + 1 != argc)
-        return cli_usage_error("inspect", "name exactly one .kten file");
-    const char *path = argv[optind];
     struct kiln_kten_info info;
     struct kiln_err err;
     int rc = kiln_kten_open(path, &info, &err);
@@ -127,4 +129,15 @@ int cmd_inspect(int argc, char **argv)
     json_decref(meta);
     kiln_kten_info_free(&info);
     return KILN_EXIT_OK;
+}
+
+static int cmd_inspect(int argc, char **argv)
+{
+    bool as_json = false;
+    struct cli_args a = {.own = &as_json};
+    int code = cli_parse(&cli_inspect, argc, argv, &a);
+    if (code == CLI_GO)
+        code = inspect(a.argv[0], as_json, a.quiet);
+    cli_args_free(&a);
+    return code;
 }

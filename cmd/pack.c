@@ -1,5 +1,4 @@
 /* kiln pack: turn a split catalogue into tensor files, statistics and a manifest. */
-#include <getopt.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -8,33 +7,33 @@
 #include "../formats/files/manifest.h"
 #include "cmd.h"
 
-static void help(void)
-{
-    printf("usage: kiln pack catalog.csv -o OUTDIR --size WxH [options]\n\n"
-           "Decodes every item that has a split, orients it, converts channels and depth,\n"
-           "resizes it, and writes train.kten, val.kten and test.kten (fixed-size records),\n"
-           "per-channel statistics of the training split, items.csv, catalog.csv,\n"
-           "manifest.json and SHA256SUMS into OUTDIR. Files appear only when complete.\n\n"
-           "options:\n"
-           "  -o, --output DIR     output folder (created; must be empty or a kiln output)\n"
-           "%s"
-           "  -j, --jobs N         worker threads (default: online CPUs)\n"
-           "  -q, --quiet          print only problems: no progress, no summary\n"
-           "  -h, --help           this text\n",
-           cli_recipe_help);
-}
+static const struct cli_opt opts[] = {
+    CLI_HEADING("options:"),
+    {"output", 'o', CLI_VALUE, "DIR", "output folder (created; must be empty or a kiln output)",
+     cli_set_output, "-o OUTDIR is required"},
+    CLI_INCLUDE(cli_recipe_group),
+    CLI_INCLUDE(cli_limit_group),
+    CLI_OPT_JOBS,
+    CLI_OPT_QUIET,
+    CLI_OPT_HELP,
+    CLI_OPT_END,
+};
 
-static const struct option longopts[] = {
-    {"output", required_argument, NULL, 'o'},   {"jobs", required_argument, NULL, 'j'},
-    {"quiet", no_argument, NULL, 'q'},          {"help", no_argument, NULL, 'h'},
-    {"size", required_argument, NULL, 0},       {"fit", required_argument, NULL, 0},
-    {"filter", required_argument, NULL, 0},     {"channels", required_argument, NULL, 0},
-    {"depth", required_argument, NULL, 0},      {"dtype", required_argument, NULL, 0},
-    {"layout", required_argument, NULL, 0},     {"pad-value", required_argument, NULL, 0},
-    {"background", required_argument, NULL, 0}, {"no-dct-scale", no_argument, NULL, 0},
-    {"no-orient", no_argument, NULL, 0},        {"hash-paths", no_argument, NULL, 0},
-    {"path-key", required_argument, NULL, 'K'},        {"max-pixels", required_argument, NULL, 0},
-    {"max-side", required_argument, NULL, 0},   {NULL, 0, NULL, 0},
+static int cmd_pack(int argc, char **argv);
+
+const struct cli_command cli_pack = {
+    .name = "pack",
+    .summary = "decode, resize and write tensor files, statistics and a manifest",
+    .usage = "pack catalog.csv -o OUTDIR --size WxH [options]",
+    .about = "Decodes every item that has a split, orients it, converts channels and depth,\n"
+             "resizes it, and writes train.kten, val.kten and test.kten (fixed-size records),\n"
+             "per-channel statistics of the training split, items.csv, catalog.csv,\n"
+             "manifest.json and SHA256SUMS into OUTDIR. Files appear only when complete.\n",
+    .opts = opts,
+    .min_args = 1,
+    .max_args = 1,
+    .args_error = "name exactly one catalogue",
+    .main = cmd_pack,
 };
 
 /* Everything after option parsing; returns the exit status. */
@@ -87,46 +86,20 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
     return exit_code;
 }
 
-int cmd_pack(int argc, char **argv)
+static int cmd_pack(int argc, char **argv)
 {
     struct kiln_pack_opts o;
     memset(&o, 0, sizeof o);
     kiln_recipe_defaults(&o.recipe);
-    o.jobs = cli_default_jobs();
-    bool quiet = false;
-    uint8_t *key = NULL;
-    int c, idx, code = -1;
-    while (code < 0 && (c = cli_getopt("pack", argc, argv, "o:j:qh", longopts, &idx)) != -1) {
-        switch (c) {
-        case 'o': o.outdir = optarg; break;
-        case 'j':
-            if (cli_parse_jobs(optarg, &o.jobs))
-                code = cli_usage_error("pack", "bad --jobs '%s': use 1 to 1024", optarg);
-            break;
-        case 'q': quiet = true; break;
-        case 'K':
-            if ((code = cli_read_path_key(optarg, &key, &o.path_key_len)) == 0)
-                code = -1; /* read: go on */
-            break;
-        case 'h':
-            help();
-            code = KILN_EXIT_OK;
-            break;
-        case 0:
-            if (cli_recipe_option(&o.recipe, longopts[idx].name, optarg) < 0)
-                code = KILN_EXIT_USAGE;
-            break;
-        default: code = KILN_EXIT_USAGE; break; /* CLI_OPT_ERROR, reported */
-        }
+    struct cli_args a = {.recipe = &o.recipe};
+    int code = cli_parse(&cli_pack, argc, argv, &a);
+    if (code == CLI_GO) {
+        o.outdir = a.output;
+        o.jobs = a.jobs;
+        o.path_key = a.path_key;
+        o.path_key_len = a.path_key_len;
+        code = pack(a.argv[0], &o, a.quiet);
     }
-    if (code < 0 && optind + 1 != argc)
-        code = cli_usage_error("pack", "name exactly one catalogue");
-    if (code < 0 && !o.outdir)
-        code = cli_usage_error("pack", "-o OUTDIR is required");
-    if (code < 0) {
-        o.path_key = key;
-        code = pack(argv[optind], &o, quiet);
-    }
-    free(key);
+    cli_args_free(&a);
     return code;
 }

@@ -1,32 +1,57 @@
 /* kiln reproduce: rebuild a recorded output from today's sources and say whether every file is
  * byte-identical to the recorded one. */
-#include <getopt.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "../core/pipeline/stage_reproduce.h"
 #include "cmd.h"
 
-static void help(void)
+static int set_allow_missing(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
-    printf("usage: kiln reproduce OLD/manifest.json --source DIR... -o NEWDIR [options]\n\n"
-           "Finds every item recorded in the old output (its catalog.csv, checked against the\n"
-           "manifest) in the sources by its content hash, wherever it now is, reruns the\n"
-           "recorded split and recipe, and compares every rebuilt file with the recorded\n"
-           "SHA-256. The rebuilt files record the original names, so a reorganised but\n"
-           "unchanged source tree rebuilds to identical bytes.\n\n"
-           "Exit status: 0 every output identical, 7 something differs, 5 recorded items are\n"
-           "missing (nothing rebuilt), 3 the old record is unreadable or damaged.\n\n"
-           "options:\n"
-           "  -s, --source DIR     a folder or archive to search (repeatable, required)\n"
-           "  -o, --output DIR     where to rebuild (required; empty or an earlier output)\n"
-           "  --allow-missing      rebuild without the items that cannot be found\n"
-           "  --path-key FILE      the key of a --hash-paths output, to tell items in place\n"
-           "                       from moved ones (not needed with the public key)\n"
-           "  -j, --jobs N         worker threads (default: online CPUs)\n"
-           "  -q, --quiet          print only problems: no progress, no summary\n"
-           "  -h, --help           this text\n");
+    (void)o, (void)v;
+    ((struct kiln_reproduce_opts *)a->own)->allow_missing = true;
+    return 0;
 }
+
+static const char args_error[] = "name the old manifest.json, --source and -o";
+
+static const struct cli_opt opts[] = {
+    CLI_HEADING("options:"),
+    {"source", 's', CLI_VALUE, "DIR", "a folder or archive to search (repeatable, required)",
+     cli_set_source, args_error},
+    {"output", 'o', CLI_VALUE, "DIR", "where to rebuild (required; empty or an earlier output)",
+     cli_set_output, args_error},
+    {"allow-missing", 0, CLI_SWITCH, NULL, "rebuild without the items that cannot be found",
+     set_allow_missing},
+    {"path-key", 0, CLI_VALUE, "FILE",
+     "the key of a --hash-paths output, to tell items in place\n"
+     "from moved ones (not needed with the public key)",
+     cli_set_path_key},
+    CLI_OPT_JOBS,
+    CLI_OPT_QUIET,
+    CLI_OPT_HELP,
+    CLI_OPT_END,
+};
+
+static int cmd_reproduce(int argc, char **argv);
+
+const struct cli_command cli_reproduce = {
+    .name = "reproduce",
+    .summary = "rebuild a recorded output from today's sources and compare",
+    .usage = "reproduce OLD/manifest.json --source DIR... -o NEWDIR [options]",
+    .about = "Finds every item recorded in the old output (its catalog.csv, checked against the\n"
+             "manifest) in the sources by its content hash, wherever it now is, reruns the\n"
+             "recorded split and recipe, and compares every rebuilt file with the recorded\n"
+             "SHA-256. The rebuilt files record the original names, so a reorganised but\n"
+             "unchanged source tree rebuilds to identical bytes.\n\n"
+             "Exit status: 0 every output identical, 7 something differs, 5 recorded items are\n"
+             "missing (nothing rebuilt), 3 the old record is unreadable or damaged.\n",
+    .opts = opts,
+    .min_args = 1,
+    .max_args = 1,
+    .args_error = args_error,
+    .main = cmd_reproduce,
+};
 
 struct notes {
     bool quiet;
@@ -104,55 +129,22 @@ static int reproduce(struct kiln_reproduce_opts *o, bool quiet)
     return KILN_EXIT_DIFFERS;
 }
 
-int cmd_reproduce(int argc, char **argv)
+static int cmd_reproduce(int argc, char **argv)
 {
-    static const struct option longopts[] = {
-        {"source", required_argument, NULL, 's'},  {"output", required_argument, NULL, 'o'},
-        {"allow-missing", no_argument, NULL, 'A'}, {"jobs", required_argument, NULL, 'j'},
-        {"path-key", required_argument, NULL, 'K'}, {"quiet", no_argument, NULL, 'q'},
-        {"help", no_argument, NULL, 'h'},          {NULL, 0, NULL, 0}};
     struct kiln_reproduce_opts o;
     memset(&o, 0, sizeof o);
-    o.jobs = cli_default_jobs();
-    const char **sources = calloc((size_t)argc + 1, sizeof *sources);
-    if (!sources) {
-        cli_error("out of memory");
-        return KILN_EXIT_FAILURE;
+    struct cli_args a = {.own = &o};
+    int code = cli_parse(&cli_reproduce, argc, argv, &a);
+    if (code == CLI_GO) {
+        o.manifest = a.argv[0];
+        o.sources = a.sources;
+        o.nsources = a.nsources;
+        o.outdir = a.output;
+        o.jobs = a.jobs;
+        o.path_key = a.path_key;
+        o.path_key_len = a.path_key_len;
+        code = reproduce(&o, a.quiet);
     }
-    uint8_t *key = NULL;
-    bool quiet = false;
-    int c, code = -1;
-    while (code < 0 &&
-           (c = cli_getopt("reproduce", argc, argv, "s:o:j:qh", longopts, NULL)) != -1) {
-        switch (c) {
-        case 's': sources[o.nsources++] = optarg; break;
-        case 'o': o.outdir = optarg; break;
-        case 'A': o.allow_missing = true; break;
-        case 'j':
-            if (cli_parse_jobs(optarg, &o.jobs))
-                code = cli_usage_error("reproduce", "bad --jobs '%s': use 1 to 1024", optarg);
-            break;
-        case 'K':
-            if ((code = cli_read_path_key(optarg, &key, &o.path_key_len)) == 0)
-                code = -1; /* read: go on */
-            break;
-        case 'q': quiet = true; break;
-        case 'h':
-            help();
-            code = KILN_EXIT_OK;
-            break;
-        default: code = KILN_EXIT_USAGE; break; /* CLI_OPT_ERROR, reported */
-        }
-    }
-    if (code < 0 && (optind + 1 != argc || !o.nsources || !o.outdir))
-        code = cli_usage_error("reproduce", "name the old manifest.json, --source and -o");
-    if (code < 0) {
-        o.manifest = argv[optind];
-        o.sources = sources;
-        o.path_key = key;
-        code = reproduce(&o, quiet);
-    }
-    free(key);
-    free(sources);
+    cli_args_free(&a);
     return code;
 }

@@ -1,6 +1,5 @@
 /* kiln scan: catalogue every candidate file of the sources into catalog.csv (and the record of
  * how, catalog.json beside it). */
-#include <getopt.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -9,81 +8,72 @@
 #include "../formats/files/manifest.h"
 #include "cmd.h"
 
-static void help(void)
+static int set_strict(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
-    printf("usage: kiln scan SOURCE... -o catalog.csv [options]\n\n"
-           "Walks folders (recursively) and archives (zip, tar, tar.gz/bz2/xz/zst, 7z, ...; read\n"
-           "in place) and writes one row per candidate file: location, size, SHA-256, format,\n"
-           "size in pixels, channels, depth, orientation, label, group, status and reason, and\n"
-           "the pixel digest and difference hash used to find duplicates. Files that cannot be\n"
-           "used are rows with a status, never dropped. Hidden and system files are counted.\n\n"
-           "options:\n"
-           "  -o, --output FILE    catalogue to write (required); FILE.json gets the record\n"
-           "%s"
-           "  --strict             exit with status 3 if any row is not ok\n"
-           "  -j, --jobs N         worker threads (default: online CPUs)\n"
-           "  -q, --quiet          print only problems: no progress, no summary\n"
-           "  -h, --help           this text\n",
-           cli_scan_help);
+    (void)o, (void)v;
+    *(bool *)a->own = true;
+    return 0;
 }
 
-static const struct option longopts[] = {
-    {"output", required_argument, NULL, 'o'},  {"jobs", required_argument, NULL, 'j'},
-    {"quiet", no_argument, NULL, 'q'},         {"help", no_argument, NULL, 'h'},
-    {"strict", no_argument, NULL, 's'},        {"labels", required_argument, NULL, 0},
-    {"group-regex", required_argument, NULL, 0}, {"follow-links", no_argument, NULL, 0},
-    {"max-pixels", required_argument, NULL, 0}, {"max-side", required_argument, NULL, 0},
-    {NULL, 0, NULL, 0},
+static const struct cli_opt opts[] = {
+    CLI_HEADING("options:"),
+    {"output", 'o', CLI_VALUE, "FILE", "catalogue to write (required); FILE.json gets the record",
+     cli_set_output, "-o catalog.csv is required"},
+    CLI_INCLUDE(cli_scan_group),
+    CLI_INCLUDE(cli_limit_group),
+    {"strict", 0, CLI_SWITCH, NULL, "exit with status 3 if any row is not ok", set_strict},
+    CLI_OPT_JOBS,
+    CLI_OPT_QUIET,
+    CLI_OPT_HELP,
+    CLI_OPT_END,
 };
 
-int cmd_scan(int argc, char **argv)
+static int cmd_scan(int argc, char **argv);
+
+const struct cli_command cli_scan = {
+    .name = "scan",
+    .summary = "catalogue the images in folders and archives (catalog.csv)",
+    .usage = "scan SOURCE... -o catalog.csv [options]",
+    .about = "Walks folders (recursively) and archives (zip, tar, tar.gz/bz2/xz/zst, 7z, ...; read\n"
+             "in place) and writes one row per candidate file: location, size, SHA-256, format,\n"
+             "size in pixels, channels, depth, orientation, label, group, status and reason, and\n"
+             "the pixel digest and difference hash used to find duplicates. Files that cannot be\n"
+             "used are rows with a status, never dropped. Hidden and system files are counted.\n",
+    .opts = opts,
+    .min_args = 1,
+    .max_args = -1,
+    .args_error = "name at least one source folder or archive",
+    .main = cmd_scan,
+};
+
+/* Everything after option parsing; returns the exit status. */
+static int scan(struct cli_args *a, struct kiln_scan_opts *o, const struct kiln_recipe *limits,
+                bool strict)
 {
-    struct kiln_scan_opts o;
-    kiln_scan_opts_defaults(&o);
-    o.jobs = cli_default_jobs();
-    const char *output = NULL;
-    bool quiet = false, strict = false;
-    int c, idx;
-    while ((c = cli_getopt("scan", argc, argv, "o:j:qh", longopts, &idx)) != -1) {
-        switch (c) {
-        case 'o': output = optarg; break;
-        case 'j':
-            if (cli_parse_jobs(optarg, &o.jobs))
-                return cli_usage_error("scan", "bad --jobs '%s': use 1 to 1024", optarg);
-            break;
-        case 'q': quiet = true; break;
-        case 's': strict = true; break;
-        case 'h': help(); return KILN_EXIT_OK;
-        case 0:
-            if (cli_scan_option(&o, longopts[idx].name, optarg) < 0)
-                return KILN_EXIT_USAGE;
-            break;
-        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
-        }
-    }
-    if (!output)
-        return cli_usage_error("scan", "-o catalog.csv is required");
-    if (optind >= argc)
-        return cli_usage_error("scan", "name at least one source folder or archive");
+    const char *output = a->output;
+    const bool quiet = a->quiet;
     int code = cli_check_output_file(output); /* before the scan, not after it */
     if (code)
         return code;
-    int nsrc = argc - optind;
-    char **sources = cli_sources_new(nsrc, argv + optind);
+    o->jobs = a->jobs;
+    o->limits.max_pixels = limits->max_pixels;
+    o->limits.max_side = limits->max_side;
+    const int nsrc = a->argc;
+    char **sources = cli_sources_new(nsrc, a->argv);
     if (!sources) {
         cli_error("out of memory");
         return KILN_EXIT_FAILURE;
     }
     struct cli_progress prog;
     cli_progress_start(&prog, "scan", quiet);
-    o.progress = cli_progress_update;
-    o.progress_ctx = &prog;
+    o->progress = cli_progress_update;
+    o->progress_ctx = &prog;
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     struct kiln_scan_report rep;
     struct kiln_err err;
     kiln_err_clear(&err);
-    int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, &o, &cat, &rep, &err);
+    int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, o, &cat, &rep, &err);
     cli_progress_done(&prog);
     int exit_code = KILN_EXIT_OK;
     if (rc) {
@@ -95,7 +85,7 @@ int cmd_scan(int argc, char **argv)
         json_t *rec = json_object();
         json_object_set_new(rec, "catalog", json_string(output));
         json_object_set_new(rec, "scan",
-                            kiln_scan_record((const char *const *)sources, (size_t)nsrc, &o,
+                            kiln_scan_record((const char *const *)sources, (size_t)nsrc, o,
                                              &rep, &cat));
         json_object_set_new(rec, "split", json_null());
         if (!rc)
@@ -107,7 +97,7 @@ int cmd_scan(int argc, char **argv)
             cli_error("%s", err.msg);
             exit_code = cli_exit_for(rc) == KILN_EXIT_INPUT ? KILN_EXIT_FAILURE : cli_exit_for(rc);
         } else {
-            cli_print_scan_summary(stdout, &cat, &rep, o.group_regex, quiet);
+            cli_print_scan_summary(stdout, &cat, &rep, o->group_regex, quiet);
             if (!quiet)
                 printf("catalogue written to %s in %.2f s\n", output, cli_elapsed(&prog));
             if (strict && rep.status[KILN_ST_OK] != cat.n) {
@@ -120,4 +110,19 @@ int cmd_scan(int argc, char **argv)
     kiln_catalog_free(&cat);
     cli_sources_free(sources, nsrc);
     return exit_code;
+}
+
+static int cmd_scan(int argc, char **argv)
+{
+    struct kiln_scan_opts o;
+    kiln_scan_opts_defaults(&o);
+    struct kiln_recipe limits; /* only the pixel limits are used */
+    kiln_recipe_defaults(&limits);
+    bool strict = false;
+    struct cli_args a = {.scan = &o, .recipe = &limits, .own = &strict};
+    int code = cli_parse(&cli_scan, argc, argv, &a);
+    if (code == CLI_GO)
+        code = scan(&a, &o, &limits, strict);
+    cli_args_free(&a);
+    return code;
 }

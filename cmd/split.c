@@ -1,65 +1,49 @@
 /* kiln split: assign every usable catalogue row to train, validation or test (docs/split.md)
  * and write the catalogue back with its unit and split columns. */
-#include <getopt.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "../core/audit.h"
 #include "../core/pipeline/stage_record.h"
+#include "../core/pipeline/stage_split.h"
 #include "../formats/files/catalog_csv.h"
 #include "../formats/files/manifest.h"
 #include "cmd.h"
 
-static void help(void)
-{
-    printf("usage: kiln split catalog.csv --seed N [options]\n\n"
-           "Groups items that must stay together (same group, same file bytes, same decoded\n"
-           "pixels) into units and deals the units to splits by a keyed hash of the seed and\n"
-           "the unit's content, never by paths or row order. Writes the catalogue back (or to\n"
-           "-o) with unit and split columns and records the parameters in catalog.json.\n\n"
-           "options:\n"
-           "%s"
-           "  -o, --output FILE    write the split catalogue here instead of in place\n"
-           "  -q, --quiet          print only problems: no progress, no summary\n"
-           "  -h, --help           this text\n",
-           cli_split_help);
-}
-
-static const struct option longopts[] = {
-    {"output", required_argument, NULL, 'o'}, {"quiet", no_argument, NULL, 'q'},
-    {"help", no_argument, NULL, 'h'},         {"seed", required_argument, NULL, 0},
-    {"ratios", required_argument, NULL, 0},   {"stratify", no_argument, NULL, 0},
-    {"mode", required_argument, NULL, 0},     {"merge-near-duplicates", optional_argument, NULL, 0},
-    {"keep", required_argument, NULL, 0},     {"keep-conflicts", required_argument, NULL, 0},
-    {NULL, 0, NULL, 0},
+static const struct cli_opt opts[] = {
+    CLI_HEADING("options:"),
+    CLI_INCLUDE(cli_split_group),
+    {"output", 'o', CLI_VALUE, "FILE", "write the split catalogue here instead of in place",
+     cli_set_output},
+    CLI_OPT_QUIET,
+    CLI_OPT_HELP,
+    CLI_OPT_END,
 };
 
-int cmd_split(int argc, char **argv)
+static int cmd_split(int argc, char **argv);
+
+const struct cli_command cli_split = {
+    .name = "split",
+    .summary = "assign train/validation/test splits to a catalogue",
+    .usage = "split catalog.csv --seed N [options]",
+    .about = "Groups items that must stay together (same group, same file bytes, same decoded\n"
+             "pixels) into units and deals the units to splits by a keyed hash of the seed and\n"
+             "the unit's content, never by paths or row order. Writes the catalogue back (or to\n"
+             "-o) with unit and split columns and records the parameters in catalog.json.\n",
+    .opts = opts,
+    .min_args = 1,
+    .max_args = 1,
+    .args_error = "name exactly one catalogue",
+    .main = cmd_split,
+};
+
+/* Everything after option parsing; returns the exit status. */
+static int split(const struct cli_args *a, struct kiln_split_params *p)
 {
-    struct kiln_split_params p;
-    cli_split_defaults(&p);
-    bool seeded = false, quiet = false;
     struct kiln_err err;
-    const char *output = NULL;
-    int c, idx;
-    while ((c = cli_getopt("split", argc, argv, "o:qh", longopts, &idx)) != -1) {
-        switch (c) {
-        case 'o': output = optarg; break;
-        case 'q': quiet = true; break;
-        case 'h': help(); return KILN_EXIT_OK;
-        case 0:
-            if (cli_split_option(&p, longopts[idx].name, optarg) < 0)
-                return KILN_EXIT_USAGE;
-            seeded |= strcmp(longopts[idx].name, "seed") == 0;
-            break;
-        default: return KILN_EXIT_USAGE; /* CLI_OPT_ERROR, reported */
-        }
-    }
-    if (optind + 1 != argc)
-        return cli_usage_error("split", "name exactly one catalogue");
-    if (!seeded)
-        return cli_usage_error("split", "--seed N is required, so the split can be rebuilt");
-    const char *input = argv[optind];
+    const bool quiet = a->quiet;
+    const char *output = a->output;
+    const char *input = a->argv[0];
     if (!output)
         output = input;
     int code = cli_check_output_file(output);
@@ -79,7 +63,7 @@ int cmd_split(int argc, char **argv)
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report rep;
-    code = cli_split_catalog(&cat, &p, &units, &rep);
+    code = cli_split_catalog(&cat, p, &units, &rep);
     if (code) {
         kiln_units_free(&units);
         kiln_catalog_free(&cat);
@@ -96,10 +80,10 @@ int cmd_split(int argc, char **argv)
     if (!rec)
         rec = json_object();
     json_object_set_new(rec, "catalog", json_string(output));
-    json_t *srec = kiln_split_record(&p, &units, &rep);
+    json_t *srec = kiln_split_record(p, &units, &rep);
     struct kiln_audit audit;
     struct kiln_err aerr = {0};
-    bool audited = kiln_audit_run(&cat, p.near_bits >= 0 ? p.near_bits : 6, NULL, &audit, &aerr) == 0;
+    bool audited = kiln_audit_run(&cat, p->near_bits >= 0 ? p->near_bits : 6, NULL, &audit, &aerr) == 0;
     if (audited)
         json_object_set_new(srec, "audit", kiln_audit_record(&audit, &cat));
     else
@@ -113,7 +97,7 @@ int cmd_split(int argc, char **argv)
         cli_error("%s", err.msg);
         exit_code = KILN_EXIT_FAILURE;
     } else {
-        cli_print_split_summary(stdout, &cat, &units, &p, &rep, quiet);
+        cli_print_split_summary(stdout, &cat, &units, p, &rep, quiet);
     }
     if (!rc && !quiet) {
         if (had_split)
@@ -131,4 +115,16 @@ int cmd_split(int argc, char **argv)
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
     return exit_code;
+}
+
+static int cmd_split(int argc, char **argv)
+{
+    struct kiln_split_params p;
+    kiln_stage_split_defaults(&p);
+    struct cli_args a = {.split = &p};
+    int code = cli_parse(&cli_split, argc, argv, &a);
+    if (code == CLI_GO)
+        code = split(&a, &p);
+    cli_args_free(&a);
+    return code;
 }

@@ -1,28 +1,41 @@
 /* kiln verify: re-check every checksum of a packed output folder and name each mismatch. */
-#include <getopt.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "../core/pipeline/stage_verify.h"
 #include "cmd.h"
 
-static void help(void)
-{
-    printf("usage: kiln verify OUTDIR [options]\n\n"
-           "Recomputes the SHA-256 of every output listed in OUTDIR/manifest.json, compares it\n"
-           "with the manifest and with SHA256SUMS, and checks the per-array SHA-256 values\n"
-           "inside each .kten header. With --source, also finds every recorded source file\n"
-           "by its SHA-256 in the given folders and archives, reporting missing and changed\n"
-           "files (and, as information, moved and extra ones).\n\n"
-           "Exit status: 0 all good, 4 an output is missing or differs, 5 (outputs good) a\n"
-           "source file is missing or changed.\n\n"
-           "options:\n"
-           "  -s, --source DIR     check the sources too (repeatable)\n"
-           "  --path-key FILE      the key of a --hash-paths output, to tell files in place\n"
-           "                       from moved ones (not needed with the public key)\n"
-           "  -q, --quiet          print only problems: no progress, no summary\n"
-           "  -h, --help           this text\n");
-}
+static const struct cli_opt opts[] = {
+    CLI_HEADING("options:"),
+    {"source", 's', CLI_VALUE, "DIR", "check the sources too (repeatable)", cli_set_source},
+    {"path-key", 0, CLI_VALUE, "FILE",
+     "the key of a --hash-paths output, to tell files in place\n"
+     "from moved ones (not needed with the public key)",
+     cli_set_path_key},
+    CLI_OPT_QUIET,
+    CLI_OPT_HELP,
+    CLI_OPT_END,
+};
+
+static int cmd_verify(int argc, char **argv);
+
+const struct cli_command cli_verify = {
+    .name = "verify",
+    .summary = "re-check every checksum of a packed output folder",
+    .usage = "verify OUTDIR [options]",
+    .about = "Recomputes the SHA-256 of every output listed in OUTDIR/manifest.json, compares it\n"
+             "with the manifest and with SHA256SUMS, and checks the per-array SHA-256 values\n"
+             "inside each .kten header. With --source, also finds every recorded source file\n"
+             "by its SHA-256 in the given folders and archives, reporting missing and changed\n"
+             "files (and, as information, moved and extra ones).\n\n"
+             "Exit status: 0 all good, 4 an output is missing or differs, 5 (outputs good) a\n"
+             "source file is missing or changed.\n",
+    .opts = opts,
+    .min_args = 1,
+    .max_args = 1,
+    .args_error = "name exactly one output folder",
+    .main = cmd_verify,
+};
 
 static void on_issue(void *ctx, int kind, const char *msg)
 {
@@ -80,42 +93,12 @@ static int verify(const char *dir, const char *const *sources, size_t nsources, 
     return KILN_EXIT_OK;
 }
 
-int cmd_verify(int argc, char **argv)
+static int cmd_verify(int argc, char **argv)
 {
-    static const struct option longopts[] = {{"quiet", no_argument, NULL, 'q'},
-                                             {"help", no_argument, NULL, 'h'},
-                                             {"source", required_argument, NULL, 's'},
-                                             {"path-key", required_argument, NULL, 'K'},
-                                             {NULL, 0, NULL, 0}};
-    uint8_t *key = NULL;
-    size_t keylen = 0, nsources = 0;
-    bool quiet = false;
-    const char **sources = calloc((size_t)argc + 1, sizeof *sources);
-    if (!sources) {
-        cli_error("out of memory");
-        return KILN_EXIT_FAILURE;
-    }
-    int c, code = -1;
-    while (code < 0 && (c = cli_getopt("verify", argc, argv, "s:qh", longopts, NULL)) != -1) {
-        switch (c) {
-        case 's': sources[nsources++] = optarg; break;
-        case 'K':
-            if ((code = cli_read_path_key(optarg, &key, &keylen)) == 0)
-                code = -1; /* read: go on */
-            break;
-        case 'q': quiet = true; break;
-        case 'h':
-            help();
-            code = KILN_EXIT_OK;
-            break;
-        default: code = KILN_EXIT_USAGE; break; /* CLI_OPT_ERROR, reported */
-        }
-    }
-    if (code < 0 && optind + 1 != argc)
-        code = cli_usage_error("verify", "name exactly one output folder");
-    if (code < 0)
-        code = verify(argv[optind], sources, nsources, key, keylen, quiet);
-    free(key);
-    free(sources);
+    struct cli_args a = {0};
+    int code = cli_parse(&cli_verify, argc, argv, &a);
+    if (code == CLI_GO)
+        code = verify(a.argv[0], a.sources, a.nsources, a.path_key, a.path_key_len, a.quiet);
+    cli_args_free(&a);
     return code;
 }
