@@ -7,6 +7,7 @@
 
 #include "../core/audit.h"
 #include "../formats/files/catalog_csv.h"
+#include "../formats/files/manifest.h"
 #include "cmd.h"
 
 static int set_near(struct cli_args *a, const struct cli_opt *o, const char *v)
@@ -60,10 +61,7 @@ static int audit(const char *arg, int near, bool quiet)
     struct stat st;
     char *path = NULL;
     if (stat(arg, &st) == 0 && S_ISDIR(st.st_mode)) {
-        size_t n = strlen(arg) + sizeof "/catalog.csv";
-        path = malloc(n);
-        if (path)
-            snprintf(path, n, "%s/catalog.csv", arg);
+        path = kiln_pipeline_path(arg, KILN_FILE_CATALOG);
     } else {
         path = strdup(arg);
     }

@@ -14,13 +14,6 @@ static const char *plural(size_t n, const char *one, const char *many)
     return n == 1 ? one : many;
 }
 
-static void item_name(const struct kiln_item *it, char *buf, size_t len)
-{
-    char rel[2048];
-    kiln_item_relname(it->path, it->member, rel, sizeof rel);
-    snprintf(buf, len, "%s/%s", it->source, rel);
-}
-
 /* ---- scan --------------------------------------------------------------------------------- */
 
 /* A group rule that matches nothing, or too little, or keeps nothing together, is almost
@@ -74,7 +67,7 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
         if (shown == LIST_LIMIT)
             continue;
         char name[4096];
-        item_name(it, name, sizeof name);
+        kiln_pipeline_item_name(it, name, sizeof name);
         fprintf(f, "  %s: %s: %s\n", kiln_status_name(it->status), name, it->reason);
         shown++;
     }
@@ -105,7 +98,7 @@ static void unit_name(const struct kiln_catalog *cat, const struct kiln_unit *un
         snprintf(buf, len, "group '%s'", id->group);
     } else {
         char name[4096];
-        item_name(id, name, sizeof name);
+        kiln_pipeline_item_name(id, name, sizeof name);
         snprintf(buf, len, "the copies of %s", name);
     }
 }
@@ -119,7 +112,7 @@ static void list_unit_items(FILE *f, const struct kiln_catalog *cat,
         if (units->unit_of[i] != u)
             continue;
         char name[4096];
-        item_name(&cat->items[i], name, sizeof name);
+        kiln_pipeline_item_name(&cat->items[i], name, sizeof name);
         const char *label = cat->items[i].label;
         fprintf(f, "      %s (%s)\n", name, label[0] ? label : "no label");
         shown++;

@@ -7,7 +7,7 @@
 #include <string.h>
 #include <unistd.h>
 
-#include "stage_pack.h"
+#include "pipeline.h"
 
 int kiln_record_pool_open(struct kiln_record_pool *p, const char *outdir,
                           const struct kiln_recipe *recipe, struct kiln_err *err)
@@ -21,7 +21,7 @@ int kiln_record_pool_open(struct kiln_record_pool *p, const char *outdir,
     atomic_init(&p->next, 0u);
     if (!p->record_bytes)
         return kiln_err_set(err, KILN_EINVAL, "record size overflows");
-    int rc = kiln_pack_prepare_outdir(outdir, &p->debris, err);
+    int rc = kiln_pipeline_prepare_outdir(outdir, &p->debris, err);
     if (rc)
         return rc;
     size_t n = strlen(outdir) + sizeof "/records.pool";

@@ -12,7 +12,7 @@
 #include "../../formats/files/outfile.h"
 #include "../err.h"
 #include "../recipe.h"
-#include "stage_pack.h"
+#include "pipeline.h"
 
 #define KILN_NO_SLOT UINT32_MAX
 

@@ -5,9 +5,6 @@
  * beforehand and statistics are exact integer totals. */
 #include "stage_pack.h"
 
-#include <dirent.h>
-#include <fcntl.h>
-#include <signal.h>
 #include <errno.h>
 #include <inttypes.h>
 #include <pthread.h>
@@ -34,8 +31,6 @@
 #include "../sha256.h"
 #include "../textesc.h"
 #include "../version.h"
-
-const char *const kiln_split_files[KILN_NSPLITS] = {"train.kten", "val.kten", "test.kten"};
 
 #define NO_RECORD UINT32_MAX
 
@@ -141,148 +136,6 @@ static int plan_records(struct pack_run *run, struct kiln_err *err)
     return KILN_OK;
 }
 
-/* ---- output folder ------------------------------------------------------------------------ */
-
-static int make_dirs(const char *path, struct kiln_err *err)
-{
-    char *p = strdup(path);
-    if (!p)
-        return kiln_err_set(err, KILN_ENOMEM, "out of memory");
-    for (char *s = p + 1; *s; s++) {
-        if (*s != '/')
-            continue;
-        *s = '\0';
-        if (mkdir(p, 0755) != 0 && errno != EEXIST) {
-            int e = errno;
-            free(p);
-            return kiln_err_sys(err, KILN_EIO, e, "cannot create folder %s", path);
-        }
-        *s = '/';
-    }
-    int rc = KILN_OK;
-    if (mkdir(p, 0755) != 0 && errno != EEXIST)
-        rc = kiln_err_sys(err, KILN_EIO, errno, "cannot create folder %s", path);
-    free(p);
-    return rc;
-}
-
-static char *out_path(const char *dir, const char *name)
-{
-    size_t n = strlen(dir) + strlen(name) + 2;
-    char *s = malloc(n);
-    if (s)
-        snprintf(s, n, "%s/%s", dir, name);
-    return s;
-}
-
-static const char *const owned_names[] = {"manifest.json", "SHA256SUMS", "items.csv", "catalog.csv",
-                                          "train.kten",    "val.kten",   "test.kten", "run.log"};
-
-/* Final names whose temporary files (".<name>.tmp-<pid>-<n>", formats/files/outfile.c) pack and build
- * create in an output folder: the outputs and the scratch record pool. */
-static const char *const temp_bases[] = {"manifest.json", "SHA256SUMS", "items.csv",
-                                         "catalog.csv",   "train.kten", "val.kten",
-                                         "test.kten",     "records.pool"};
-
-static bool is_kiln_temp(const char *name, long *pid)
-{
-    for (size_t i = 0; i < sizeof temp_bases / sizeof temp_bases[0]; i++)
-        if (kiln_outfile_is_temp_name(name, temp_bases[i], pid))
-            return true;
-    return false;
-}
-
-static bool process_alive(long pid)
-{
-    return pid == (long)getpid() || kill((pid_t)pid, 0) == 0 || errno == EPERM;
-}
-
-/* Removes what an interrupted run left: only regular files (never a link) whose names kiln's
- * temporary-name pattern gives for one of its own outputs, and only when the process that made
- * them is gone (a run still writing into the folder keeps its files; they are counted). */
-static int sweep_debris(DIR *d, const char *dir, struct kiln_debris *debris, struct kiln_err *err)
-{
-    const int fd = dirfd(d);
-    rewinddir(d);
-    struct dirent *de;
-    while ((de = readdir(d)) != NULL) {
-        long pid;
-        struct stat st;
-        if (de->d_name[0] != '.' || !is_kiln_temp(de->d_name, &pid) ||
-            fstatat(fd, de->d_name, &st, AT_SYMLINK_NOFOLLOW) != 0 || !S_ISREG(st.st_mode))
-            continue;
-        if (process_alive(pid)) {
-            debris->kept++;
-            continue;
-        }
-        if (unlinkat(fd, de->d_name, 0) != 0 && errno != ENOENT)
-            return kiln_err_sys(err, KILN_EIO, errno,
-                                "cannot remove %s/%s, left by an interrupted run", dir,
-                                de->d_name);
-        debris->removed++;
-        debris->bytes += (uint64_t)st.st_size;
-    }
-    return KILN_OK;
-}
-
-static bool is_owned(const char *name)
-{
-    for (size_t i = 0; i < sizeof owned_names / sizeof owned_names[0]; i++)
-        if (strcmp(name, owned_names[i]) == 0)
-            return true;
-    return false;
-}
-
-/* Accepts an empty folder or an earlier kiln output; removes the debris of interrupted runs,
- * then the old manifest and checksum list, so from here until the new ones are written nothing
- * claims to be complete. */
-int kiln_pack_prepare_outdir(const char *dir, struct kiln_debris *debris, struct kiln_err *err)
-{
-    memset(debris, 0, sizeof *debris);
-    int rc = make_dirs(dir, err);
-    if (rc)
-        return rc;
-    DIR *d = opendir(dir);
-    if (!d)
-        return kiln_err_sys(err, KILN_EIO, errno, "cannot open output folder %s", dir);
-    bool has_manifest = false, foreign = false;
-    char foreign_name[256] = "";
-    struct dirent *de;
-    while ((de = readdir(d)) != NULL) {
-        if (de->d_name[0] == '.')
-            continue; /* temporary files of this or an interrupted run */
-        if (strcmp(de->d_name, "manifest.json") == 0)
-            has_manifest = true;
-        else if (!is_owned(de->d_name) && !foreign) {
-            foreign = true;
-            snprintf(foreign_name, sizeof foreign_name, "%s", de->d_name);
-        }
-    }
-    if (foreign && !has_manifest) {
-        closedir(d);
-        return kiln_err_set(err, KILN_EINVAL,
-                            "output folder %s holds '%s' and no kiln manifest; use an empty or "
-                            "new folder",
-                            dir, foreign_name);
-    }
-    rc = sweep_debris(d, dir, debris, err);
-    closedir(d);
-    if (rc)
-        return rc;
-    for (int k = 0; k < 2; k++) {
-        char *p = out_path(dir, owned_names[k]);
-        if (!p)
-            return kiln_err_set(err, KILN_ENOMEM, "out of memory");
-        if (unlink(p) != 0 && errno != ENOENT) {
-            rc = kiln_err_sys(err, KILN_EIO, errno, "cannot remove the old %s", p);
-            free(p);
-            return rc;
-        }
-        free(p);
-    }
-    return kiln_fsync_dir(dir, err);
-}
-
 /* ---- the reader --------------------------------------------------------------------------- */
 
 static int queue_job(struct pack_run *run, uint32_t item, uint8_t *data, size_t size,
@@ -323,13 +176,13 @@ static char *item_fs_path(const struct kiln_item *it)
 {
     if (!fetch_path(it)[0])
         return strdup(fetch_source(it));
-    return out_path(fetch_source(it), fetch_path(it));
+    return kiln_pipeline_path(fetch_source(it), fetch_path(it));
 }
 
 static const char *item_name(const struct kiln_item *it, char *buf, size_t len)
 {
     char rel[2048];
-    kiln_item_relname(fetch_path(it), fetch_member(it), rel, sizeof rel);
+    kiln_pipeline_relname(fetch_path(it), fetch_member(it), rel, sizeof rel);
     snprintf(buf, len, "%s/%s", fetch_source(it), rel);
     return buf;
 }
@@ -785,7 +638,7 @@ static int open_outputs(struct pack_run *run, struct kiln_err *err)
         arrays[2].dtype = KILN_DT_U32;
         arrays[2].rank = 1;
         arrays[2].dims[0] = n;
-        char *p = out_path(run->o->outdir, kiln_split_files[s]);
+        char *p = kiln_pipeline_path(run->o->outdir, kiln_manifest_split_files[s]);
         if (!p)
             return kiln_err_set(err, KILN_ENOMEM, "out of memory");
         int rc = kiln_kten_create(&run->kten[s], p, arrays, 3, err);
@@ -796,7 +649,7 @@ static int open_outputs(struct pack_run *run, struct kiln_err *err)
         run->rep->present[s] = true;
     }
     if (r->dtype == KILN_OUT_F32 && !run->o->pool) {
-        char *p = out_path(run->o->outdir, "records.pool");
+        char *p = kiln_pipeline_path(run->o->outdir, KILN_FILE_POOL);
         if (!p)
             return kiln_err_set(err, KILN_ENOMEM, "out of memory");
         int rc = kiln_outfile_open(&run->pool, p, err);
@@ -1033,7 +886,7 @@ struct out_hash {
 
 static int hash_output(const char *dir, struct out_hash *h, struct kiln_err *err)
 {
-    char *fp = out_path(dir, h->name);
+    char *fp = kiln_pipeline_path(dir, h->name);
     if (!fp)
         return kiln_err_set(err, KILN_ENOMEM, "out of memory");
     uint8_t d[KILN_SHA256_LEN];
@@ -1047,7 +900,7 @@ static int hash_output(const char *dir, struct out_hash *h, struct kiln_err *err
 /* SHA256SUMS in the coreutils format ("<hex>  <name>"), so `sha256sum -c` checks it. */
 static int write_sums(const char *dir, const struct out_hash *h, size_t n, struct kiln_err *err)
 {
-    char *p = out_path(dir, "SHA256SUMS");
+    char *p = kiln_pipeline_path(dir, KILN_FILE_SUMS);
     if (!p)
         return kiln_err_set(err, KILN_ENOMEM, "out of memory");
     struct kiln_outfile of;
@@ -1109,7 +962,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
                           "the training split is empty, so --dtype f32 has no training "
                           "statistics to normalise with (use u8 or u16, or other ratios)");
     if (!rc)
-        rc = o->pool ? KILN_OK : kiln_pack_prepare_outdir(o->outdir, &rep->debris, err);
+        rc = o->pool ? KILN_OK : kiln_pipeline_prepare_outdir(o->outdir, &rep->debris, err);
     if (!rc)
         rc = open_outputs(&run, err);
     run.prog.total_items = packed;
@@ -1161,8 +1014,8 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         rc = kiln_names_catalog(&namer, cat, err);
     if (!rc && !(record = kiln_record_public(o->catalog_record, &namer, err)))
         rc = err->code ? err->code : KILN_ENOMEM;
-    char *items_path = out_path(o->outdir, "items.csv");
-    char *cat_path = out_path(o->outdir, "catalog.csv");
+    char *items_path = kiln_pipeline_path(o->outdir, KILN_FILE_ITEMS);
+    char *cat_path = kiln_pipeline_path(o->outdir, KILN_FILE_CATALOG);
     if (!rc && (!items_path || !cat_path))
         rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
     if (!rc)
@@ -1176,14 +1029,14 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     size_t nn = 0;
     for (int s = 0; s < KILN_NSPLITS; s++)
         if (rep->present[s])
-            names[nn++] = kiln_split_files[s];
-    names[nn++] = "items.csv";
-    names[nn++] = "catalog.csv";
+            names[nn++] = kiln_manifest_split_files[s];
+    names[nn++] = KILN_FILE_ITEMS;
+    names[nn++] = KILN_FILE_CATALOG;
     if (!rc) {
         /* Remove tensor files an earlier run wrote for a split this run does not have. */
         for (int s = 0; s < KILN_NSPLITS; s++)
             if (!rep->present[s]) {
-                char *p = out_path(o->outdir, kiln_split_files[s]);
+                char *p = kiln_pipeline_path(o->outdir, kiln_manifest_split_files[s]);
                 if (p)
                     unlink(p);
                 free(p);
@@ -1236,12 +1089,12 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
             json_object_set_new(ob, "sha256", json_string(hashes[i].hex));
             json_array_append_new(outputs, ob);
         }
-        char *mp = out_path(o->outdir, "manifest.json");
+        char *mp = kiln_pipeline_path(o->outdir, KILN_FILE_MANIFEST);
         if (!rc)
             rc = mp ? kiln_json_save(mp, manifest, err) : kiln_err_set(err, KILN_ENOMEM, "oom");
         free(mp);
         if (!rc) {
-            hashes[nn].name = "manifest.json";
+            hashes[nn].name = KILN_FILE_MANIFEST;
             rc = hash_output(o->outdir, &hashes[nn], err);
         }
         if (!rc)

@@ -11,8 +11,8 @@
 #include "../catalog.h"
 #include "../err.h"
 #include "../recipe.h"
-#include "stage_scan.h"
 #include "../stats.h"
+#include "pipeline.h"
 
 struct kiln_pack_opts {
     struct kiln_recipe recipe; /* finished (kiln_recipe_finish) */
@@ -31,14 +31,6 @@ struct kiln_pack_opts {
     struct kiln_record_pool *pool;
 };
 
-/* Temporary files that interrupted runs left in an output folder (docs/cli.md, "Interrupted
- * runs"). */
-struct kiln_debris {
-    size_t removed;  /* files removed */
-    uint64_t bytes;  /* their total size */
-    size_t kept;     /* files of a process that is still running, left alone */
-};
-
 struct kiln_pack_report {
     struct kiln_debris debris;   /* found when the output folder was prepared */
     bool present[KILN_NSPLITS];  /* a file was written for the split */
@@ -55,16 +47,5 @@ struct kiln_pack_report {
  * that a failed run never leaves a manifest describing files it did not write. */
 int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
                     struct kiln_pack_report *rep, struct kiln_err *err);
-
-/* Creates outdir if needed and checks it is empty or an earlier kiln output, removes the
- * temporary files interrupted kiln runs left there (counted in debris), then removes the old
- * manifest and checksum list. */
-int kiln_pack_prepare_outdir(const char *outdir, struct kiln_debris *debris,
-                             struct kiln_err *err);
-
-struct kiln_record_pool;
-
-/* The names of the files pack writes, in the order SHA256SUMS lists them. */
-extern const char *const kiln_split_files[KILN_NSPLITS]; /* "train.kten", ... */
 
 #endif

@@ -140,7 +140,7 @@ static int rerun_split(struct kiln_catalog *cat, const json_t *split, kiln_repro
         if (it->split != was[i] || (was[i] >= 0 && it->unit_key != key[i])) {
             if (rep->split_differs++ < 20) {
                 char rel[4096];
-                kiln_item_relname(it->path, it->member, rel, sizeof rel);
+                kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
                 note(fn, ctx, KILN_REPRO_SPLIT, "%s: recorded in %s, the rerun split gives %s",
                      rel, was[i] >= 0 ? kiln_split_name(was[i]) : "no split",
                      it->split >= 0 ? kiln_split_name(it->split) : "no split");
@@ -160,7 +160,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     int rc = kiln_json_load(o->manifest, &m, err);
     if (rc)
         return rc;
-    char *cpath = sibling(o->manifest, "catalog.csv");
+    char *cpath = sibling(o->manifest, KILN_FILE_CATALOG);
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     struct kiln_index idx;
@@ -170,7 +170,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     uint32_t *moved = NULL; /* items found elsewhere than recorded */
     struct kiln_pack_opts po;
     memset(&po, 0, sizeof po);
-    const char *want = recorded_sha(m, "catalog.csv");
+    const char *want = recorded_sha(m, KILN_FILE_CATALOG);
     char hex[KILN_SHA256_HEX];
     if (!cpath)
         rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
@@ -214,7 +214,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
         if (rc)
             goto out;
         char rel[4096];
-        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
         if (!hit) {
             rep->missing++;
             char sha[KILN_SHA256_HEX];
@@ -241,8 +241,8 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     for (size_t k = 0; k < rep->moved; k++) {
         const struct kiln_item *it = &cat.items[moved[k]];
         char rel[4096], now[4096];
-        kiln_item_relname(it->path, it->member, rel, sizeof rel);
-        kiln_item_relname(it->from_path, it->from_member, now, sizeof now);
+        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
+        kiln_pipeline_relname(it->from_path, it->from_member, now, sizeof now);
         note(fn, ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from_source, now);
     }
     if (rep->missing && !o->allow_missing) {
@@ -286,7 +286,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
             compare_output(o->outdir, name, sha, NULL, rep);
     }
     if (rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
-        compare_output(o->outdir, "manifest.json", NULL, o->manifest, rep);
+        compare_output(o->outdir, KILN_FILE_MANIFEST, NULL, o->manifest, rep);
 out:
     free(moved);
     json_decref(record);

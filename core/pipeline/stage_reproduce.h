@@ -10,7 +10,7 @@
 #include "../err.h"
 #include "../sha256.h"
 #include "stage_pack.h"
-#include "stage_scan.h"
+#include "pipeline.h"
 
 struct kiln_reproduce_opts {
     const char *manifest;

@@ -14,6 +14,7 @@
 #include "../prepare.h"
 #include "record_pool.h"
 #include "../convert.h"
+#include "../imghash.h"
 #include "queue.h"
 #include "../resize.h"
 #include "../sha256.h"
@@ -34,16 +35,6 @@ void kiln_scan_opts_defaults(struct kiln_scan_opts *o)
     o->limits.max_side = 65535;
     o->jobs = 1;
     o->queue_bytes = KILN_QUEUE_BYTES_DEFAULT;
-}
-
-void kiln_item_relname(const char *path, const char *member, char *buf, size_t len)
-{
-    if (!member[0])
-        snprintf(buf, len, "%s", path);
-    else if (!path[0])
-        snprintf(buf, len, "%s", member);
-    else
-        snprintf(buf, len, "%s/%s", path, member);
 }
 
 /* ---- label CSV ---------------------------------------------------------------------------- */
@@ -153,79 +144,6 @@ int kiln_labels_csv_check(const char *path, size_t *rows, struct kiln_err *err)
     if (!rc)
         label_table_free(&t);
     return rc;
-}
-
-/* ---- pixel digest and difference hash ----------------------------------------------------- */
-
-static int host_little_endian(void)
-{
-    const uint16_t one = 1;
-    return *(const uint8_t *)&one == 1;
-}
-
-int kiln_pixel_digest(const struct kiln_image *img, uint8_t out[32], struct kiln_err *err)
-{
-    struct kiln_sha256 ctx;
-    int rc = kiln_sha256_init(&ctx, err);
-    if (rc)
-        return rc;
-    uint8_t head[16];
-    const uint32_t v[4] = {img->width, img->height, img->channels, img->depth};
-    for (int i = 0; i < 4; i++)
-        for (int b = 0; b < 4; b++)
-            head[4 * i + b] = (uint8_t)(v[i] >> (8 * b));
-    kiln_sha256_update(&ctx, head, sizeof head);
-    if (img->depth == 8 || host_little_endian()) {
-        kiln_sha256_update(&ctx, img->data, (size_t)img->height * img->stride);
-    } else {
-        uint8_t buf[4096];
-        const uint16_t *s = img->data;
-        size_t n = (size_t)img->height * img->stride / 2, k = 0;
-        for (size_t i = 0; i < n; i++) {
-            buf[k++] = (uint8_t)s[i];
-            buf[k++] = (uint8_t)(s[i] >> 8);
-            if (k == sizeof buf) {
-                kiln_sha256_update(&ctx, buf, k);
-                k = 0;
-            }
-        }
-        kiln_sha256_update(&ctx, buf, k);
-    }
-    rc = kiln_sha256_final(&ctx, out, err);
-    kiln_sha256_free(&ctx);
-    return rc;
-}
-
-int kiln_dhash(const struct kiln_image *img, struct kiln_image scratch[2], struct kiln_resizer *rs,
-               uint64_t *out, struct kiln_err *err)
-{
-    static const uint8_t white[3] = {255, 255, 255};
-    const struct kiln_image *cur = img;
-    int rc;
-    if (cur->channels != 1) {
-        rc = kiln_convert_channels(cur, 1, white, &scratch[0], err);
-        if (rc)
-            return rc;
-        cur = &scratch[0];
-    }
-    if (cur->depth != 8) {
-        struct kiln_image *dst = cur == &scratch[0] ? &scratch[1] : &scratch[0];
-        rc = kiln_convert_depth(cur, 8, dst, err);
-        if (rc)
-            return rc;
-        cur = dst;
-    }
-    struct kiln_image *small = cur == &scratch[0] ? &scratch[1] : &scratch[0];
-    rc = kiln_resize(rs, cur, NULL, 9, 8, KILN_FILTER_BOX, small, err);
-    if (rc)
-        return rc;
-    const uint8_t *p = small->data;
-    uint64_t h = 0;
-    for (int y = 0; y < 8; y++)
-        for (int x = 0; x < 8; x++)
-            h = h << 1 | (p[y * 9 + x + 1] > p[y * 9 + x]);
-    *out = h;
-    return KILN_OK;
 }
 
 /* ---- the pipeline ------------------------------------------------------------------------- */
@@ -416,9 +334,9 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
             return run_failure(w, j, rc, e.msg);
         shown = &w->oriented;
     }
-    rc = kiln_pixel_digest(shown, it->pixel_sha256, &e);
+    rc = kiln_imghash_pixels(shown, it->pixel_sha256, &e);
     if (!rc)
-        rc = kiln_dhash(shown, w->scratch, &w->rs, &it->phash, &e);
+        rc = kiln_imghash_dhash(shown, w->scratch, &w->rs, &it->phash, &e);
     if (rc)
         return run_failure(w, j, rc, e.msg);
     it->has_pixels = 1;
@@ -498,7 +416,7 @@ static int process(struct worker *w, struct job *j)
     char path[4096], member[4096], rel[4096], label[1024] = "", group[1024] = "";
     kiln_name_normalise(j->path, path, sizeof path);
     kiln_name_normalise(j->member, member, sizeof member);
-    kiln_item_relname(path, member, rel, sizeof rel);
+    kiln_pipeline_relname(path, member, rel, sizeof rel);
     struct label_row *lr = NULL;
     if (o->labels == KILN_LABELS_FOLDER) {
         folder_label(path, member, label, sizeof label);

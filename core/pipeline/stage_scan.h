@@ -12,15 +12,10 @@
 #include "../../formats/sources/source.h"
 #include "../catalog.h"
 #include "../err.h"
+#include "pipeline.h"
 
 enum kiln_label_rule { KILN_LABELS_FOLDER = 0, KILN_LABELS_NONE = 1, KILN_LABELS_CSV = 2 };
 const char *kiln_label_rule_name(int rule);
-
-struct kiln_progress {
-    size_t items, total_items; /* total 0 when unknown */
-    uint64_t bytes;
-};
-typedef void (*kiln_progress_fn)(void *ctx, const struct kiln_progress *p);
 
 struct kiln_scan_opts {
     int labels;             /* enum kiln_label_rule */
@@ -59,16 +54,5 @@ int kiln_stage_scan(const char *const *sources, size_t nsources, const struct ki
 /* Loads a labels CSV (--labels csv:FILE) with scan's own loader and checks it, then frees it:
  * KILN_OK with *rows set, or the error scan would report. Lets tests/fuzz/ reach the loader. */
 int kiln_labels_csv_check(const char *path, size_t *rows, struct kiln_err *err);
-
-/* The name the label and group rules see: path, member, or "path/member" (docs/cli.md). The
- * result is written to buf (truncated to len). */
-void kiln_item_relname(const char *path, const char *member, char *buf, size_t len);
-
-/* The canonical pixel digest and 64-bit difference hash of an oriented decoded image
- * (docs/split.md, "Pixel digest" and "Difference hash"). scratch is reused between calls. */
-struct kiln_resizer;
-int kiln_pixel_digest(const struct kiln_image *img, uint8_t out[32], struct kiln_err *err);
-int kiln_dhash(const struct kiln_image *img, struct kiln_image scratch[2], struct kiln_resizer *rs,
-               uint64_t *out, struct kiln_err *err);
 
 #endif

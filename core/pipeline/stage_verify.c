@@ -16,7 +16,7 @@
 #include "../names.h"
 #include "../sha256.h"
 #include "stage_index.h"
-#include "stage_scan.h"
+#include "pipeline.h"
 
 struct checked {
     char name[256];
@@ -40,22 +40,13 @@ static void report(kiln_issue_fn fn, void *ctx, struct kiln_verify_report *rep, 
         fn(ctx, kind, msg);
 }
 
-static char *join(const char *dir, const char *name)
-{
-    size_t n = strlen(dir) + strlen(name) + 2;
-    char *s = malloc(n);
-    if (s)
-        snprintf(s, n, "%s/%s", dir, name);
-    return s;
-}
-
 /* Hashes a file; a missing or unreadable file is reported and gets ok = 0. */
 static int hash_file(const char *dir, const char *name, struct checked *c, kiln_issue_fn fn,
                      void *ctx, struct kiln_verify_report *rep, uint64_t *size)
 {
     snprintf(c->name, sizeof c->name, "%s", name);
     c->ok = 0;
-    char *p = join(dir, name);
+    char *p = kiln_pipeline_path(dir, name);
     if (!p)
         return KILN_ENOMEM;
     uint8_t d[KILN_SHA256_LEN];
@@ -76,7 +67,7 @@ static int hash_file(const char *dir, const char *name, struct checked *c, kiln_
 static int check_kten(const char *dir, const char *name, kiln_issue_fn fn, void *ctx,
                       struct kiln_verify_report *rep)
 {
-    char *p = join(dir, name);
+    char *p = kiln_pipeline_path(dir, name);
     if (!p)
         return KILN_ENOMEM;
     struct kiln_kten_info info;
@@ -111,7 +102,7 @@ int kiln_stage_verify(const char *outdir, kiln_issue_fn fn, void *ctx,
                       struct kiln_verify_report *rep, struct kiln_err *err)
 {
     memset(rep, 0, sizeof *rep);
-    char *mpath = join(outdir, "manifest.json");
+    char *mpath = kiln_pipeline_path(outdir, KILN_FILE_MANIFEST);
     if (!mpath)
         return kiln_err_set(err, KILN_ENOMEM, "out of memory");
     json_t *m;
@@ -159,9 +150,9 @@ int kiln_stage_verify(const char *outdir, kiln_issue_fn fn, void *ctx,
             check_kten(outdir, name, fn, ctx, rep);
     }
     uint64_t msize;
-    hash_file(outdir, "manifest.json", &files[n], fn, ctx, rep, &msize);
+    hash_file(outdir, KILN_FILE_MANIFEST, &files[n], fn, ctx, rep, &msize);
     /* SHA256SUMS must list exactly the outputs plus manifest.json, with the same digests. */
-    char *spath = join(outdir, "SHA256SUMS");
+    char *spath = kiln_pipeline_path(outdir, KILN_FILE_SUMS);
     FILE *f = spath ? fopen(spath, "r") : NULL;
     free(spath);
     if (!f) {
@@ -226,7 +217,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
                               const uint8_t *path_key, size_t path_key_len, kiln_issue_fn fn,
                               void *ctx, struct kiln_verify_report *rep, struct kiln_err *err)
 {
-    char *cpath = join(outdir, "catalog.csv"), *mpath = join(outdir, "manifest.json");
+    char *cpath = kiln_pipeline_path(outdir, KILN_FILE_CATALOG), *mpath = kiln_pipeline_path(outdir, KILN_FILE_MANIFEST);
     if (!cpath || !mpath) {
         free(cpath);
         free(mpath);
@@ -240,7 +231,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
     json_t *o;
     if (!rc)
         json_array_foreach(json_object_get(m, "outputs"), i, o)
-            if (kiln_json_str(o, "name") && strcmp(kiln_json_str(o, "name"), "catalog.csv") == 0)
+            if (kiln_json_str(o, "name") && strcmp(kiln_json_str(o, "name"), KILN_FILE_CATALOG) == 0)
                 want = kiln_json_str(o, "sha256");
     uint8_t d[KILN_SHA256_LEN];
     uint64_t size;
@@ -318,7 +309,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
             continue;
         rep->sources_checked++;
         char rel[4096];
-        kiln_item_relname(it->path, it->member, rel, sizeof rel);
+        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
         const struct kiln_index_entry *hit = kiln_index_find(&idx, it->sha256);
         struct located key = {it->path, it->member, NULL, 0};
         const struct located *at = idx.n ? bsearch(&key, loc, idx.n, sizeof *loc, cmp_located) : NULL;
@@ -352,8 +343,8 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
         const struct kiln_item *it = &cat.items[moved[q].item];
         const struct kiln_index_entry *hit = &idx.e[moved[q].entry];
         char rel[4096], now[4096], msg[8300];
-        kiln_item_relname(it->path, it->member, rel, sizeof rel);
-        kiln_item_relname(hit->path, hit->member, now, sizeof now);
+        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
+        kiln_pipeline_relname(hit->path, hit->member, now, sizeof now);
         snprintf(msg, sizeof msg, "%s: found by content as %s/%s", rel, hit->source, now);
         fn(ctx, KILN_ISSUE_SOURCE_MOVED, msg);
     }
@@ -362,7 +353,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
             rep->sources_extra++;
             if (fn) {
                 char now[4096], msg[8300];
-                kiln_item_relname(idx.e[q].path, idx.e[q].member, now, sizeof now);
+                kiln_pipeline_relname(idx.e[q].path, idx.e[q].member, now, sizeof now);
                 snprintf(msg, sizeof msg, "%s/%s: not recorded in the output", idx.e[q].source, now);
                 fn(ctx, KILN_ISSUE_SOURCE_EXTRA, msg);
             }

@@ -35,7 +35,7 @@ int kiln_keep_load(const char *manifest_path, struct kiln_keep *k, struct kiln_e
     json_array_foreach(json_object_get(m, "outputs"), i, o)
     {
         const char *name = kiln_json_str(o, "name");
-        if (name && strcmp(name, "items.csv") == 0)
+        if (name && strcmp(name, KILN_FILE_ITEMS) == 0)
             want = kiln_json_str(o, "sha256");
     }
     char *dir = strdup(manifest_path), *items = NULL;

@@ -16,6 +16,8 @@
 #include "outfile.h"
 #include "../sources/source.h"
 
+const char *const kiln_manifest_split_files[3] = {KILN_FILE_TRAIN, KILN_FILE_VAL, KILN_FILE_TEST};
+
 char *kiln_json_dump(const json_t *doc)
 {
     return json_dumps(doc, KILN_JSON_FLAGS);

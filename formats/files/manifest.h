@@ -11,6 +11,22 @@
 #include "../../core/stats.h"
 
 #define KILN_MANIFEST_VERSION 1
+
+/* The files of an output folder (docs/formats.md), in the order SHA256SUMS lists them: the
+ * tensor file of each split present, items.csv, catalog.csv, then manifest.json. records.pool
+ * is the scratch file of build and of f32 packs, never renamed into place. No version writes
+ * run.log; a folder holding it is still taken for kiln's (pipeline.c). */
+#define KILN_FILE_TRAIN "train.kten"
+#define KILN_FILE_VAL "val.kten"
+#define KILN_FILE_TEST "test.kten"
+#define KILN_FILE_ITEMS "items.csv"
+#define KILN_FILE_CATALOG "catalog.csv"
+#define KILN_FILE_MANIFEST "manifest.json"
+#define KILN_FILE_SUMS "SHA256SUMS"
+#define KILN_FILE_POOL "records.pool"
+#define KILN_FILE_LOG "run.log"
+/* The tensor file of each split, by enum kiln_split. */
+extern const char *const kiln_manifest_split_files[3];
 #define KILN_JSON_FLAGS (JSON_INDENT(2) | JSON_PRESERVE_ORDER | JSON_REAL_PRECISION(17))
 
 /* Saves atomically (temporary name, fsync, rename). */

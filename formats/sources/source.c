@@ -1,5 +1,5 @@
-/* Dispatch from a source argument to the folder or archive walker, the skip list, and whole
- * file reading. */
+/* What every walker shares: the skip list and whole file reading (the walkers themselves are
+ * in source_folder.c and source_archive.c, chosen by registry.c). */
 #include "source.h"
 
 #include <errno.h>
@@ -8,10 +8,6 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
-
-int kiln_folder_walk(const char *root, const struct kiln_walk_opts *opts, kiln_want_fn want,
-                     kiln_entry_fn fn, void *ctx, struct kiln_walk_counts *counts,
-                     struct kiln_err *err);
 
 /* Skipped without a row. Hidden names cover macOS ".DS_Store", "._*" resource forks,
  * ".Spotlight-V100", ".Trashes" and version-control folders; the rest are folder-metadata
@@ -29,21 +25,6 @@ const char *kiln_source_skip_kind(const char *name)
         if (strcmp(name, junk_names[i]) == 0)
             return "junk";
     return NULL;
-}
-
-int kiln_source_walk(const char *root, const struct kiln_walk_opts *opts, kiln_want_fn want,
-                     kiln_entry_fn fn, void *ctx, struct kiln_walk_counts *counts,
-                     struct kiln_err *err)
-{
-    struct stat st;
-    if (stat(root, &st) != 0)
-        return kiln_err_sys(err, KILN_EIO, errno, "cannot open source %s", root);
-    if (S_ISDIR(st.st_mode))
-        return kiln_folder_walk(root, opts, want, fn, ctx, counts, err);
-    if (S_ISREG(st.st_mode))
-        return kiln_archive_walk(root, root, "", opts, want, fn, ctx, counts, err);
-    return kiln_err_set(err, KILN_EINVAL, "source %s is neither a folder nor an archive file",
-                        root);
 }
 
 int kiln_source_read_file(const char *fs_path, uint64_t max_bytes, uint8_t **data, size_t *size,

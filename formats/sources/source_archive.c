@@ -10,6 +10,7 @@
 
 #include "../../core/catalog.h"
 #include "source.h"
+#include "walker.h"
 
 #define ARCHIVE_BLOCK (256u * 1024u)
 
@@ -271,3 +272,22 @@ static int walk_members(const char *fs_path, const char *root, const char *path,
     archive_read_free(a);
     return rc;
 }
+
+/* An archive named as the source itself: its members' paths are "" (source.h). */
+static int archive_source_walk(const char *root, const struct kiln_walk_opts *opts,
+                               kiln_want_fn want, kiln_entry_fn fn, void *ctx,
+                               struct kiln_walk_counts *counts, struct kiln_err *err)
+{
+    return kiln_archive_walk(root, root, "", opts, want, fn, ctx, counts, err);
+}
+
+static bool takes_file(const struct stat *st)
+{
+    return S_ISREG(st->st_mode);
+}
+
+const struct kiln_walker kiln_walker_archive = {
+    .name = "archive",
+    .takes = takes_file,
+    .walk = archive_source_walk,
+};

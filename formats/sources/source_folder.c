@@ -13,6 +13,7 @@
 #include "../../core/catalog.h"
 #include "../../core/checked.h"
 #include "source.h"
+#include "walker.h"
 
 struct dir_id {
     dev_t dev;
@@ -29,10 +30,6 @@ struct folder_walk {
     struct dir_id *stack; /* folders being walked, for loop detection */
     size_t depth, stack_cap;
 };
-
-int kiln_folder_walk(const char *root, const struct kiln_walk_opts *opts, kiln_want_fn want,
-                     kiln_entry_fn fn, void *ctx, struct kiln_walk_counts *counts,
-                     struct kiln_err *err);
 
 static int emit_status(struct folder_walk *w, const char *rel, int status, const char *reason,
                        struct kiln_err *err)
@@ -226,9 +223,9 @@ static int walk_dir(struct folder_walk *w, const char *rel, struct kiln_err *err
     return rc;
 }
 
-int kiln_folder_walk(const char *root, const struct kiln_walk_opts *opts, kiln_want_fn want,
-                     kiln_entry_fn fn, void *ctx, struct kiln_walk_counts *counts,
-                     struct kiln_err *err)
+static int folder_walk(const char *root, const struct kiln_walk_opts *opts, kiln_want_fn want,
+                       kiln_entry_fn fn, void *ctx, struct kiln_walk_counts *counts,
+                       struct kiln_err *err)
 {
     struct folder_walk w = {root, opts, want, fn, ctx, counts, NULL, 0, 0};
     struct stat st;
@@ -241,3 +238,14 @@ int kiln_folder_walk(const char *root, const struct kiln_walk_opts *opts, kiln_w
     free(w.stack);
     return rc;
 }
+
+static bool takes_folder(const struct stat *st)
+{
+    return S_ISDIR(st->st_mode);
+}
+
+const struct kiln_walker kiln_walker_folder = {
+    .name = "folder",
+    .takes = takes_folder,
+    .walk = folder_walk,
+};

@@ -14,6 +14,7 @@
 #include <unistd.h>
 
 #include "../../core/pipeline/stage_pack.h"
+#include "../../core/pipeline/stage_scan.h"
 #include "../../core/split.h"
 #include "../../core/units.h"
 #include "../../formats/files/manifest.h"
