@@ -290,7 +290,7 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
             }
             const struct kiln_item *it = &cat->items[a->items[lk->first + k]];
             char name[8192];
-            kiln_pipeline_item_name(it, name, sizeof name);
+            kiln_catalog_item_name(it, name, sizeof name);
             fprintf(f, "  %-5s %s\n", kiln_split_name(it->split), name);
         }
     }

@@ -67,7 +67,7 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
         if (shown == LIST_LIMIT)
             continue;
         char name[4096];
-        kiln_pipeline_item_name(it, name, sizeof name);
+        kiln_catalog_item_name(it, name, sizeof name);
         fprintf(f, "  %s: %s: %s\n", kiln_status_name(it->status), name, it->reason);
         shown++;
     }
@@ -98,7 +98,7 @@ static void unit_name(const struct kiln_catalog *cat, const struct kiln_unit *un
         snprintf(buf, len, "group '%s'", id->group);
     } else {
         char name[4096];
-        kiln_pipeline_item_name(id, name, sizeof name);
+        kiln_catalog_item_name(id, name, sizeof name);
         snprintf(buf, len, "the copies of %s", name);
     }
 }
@@ -112,7 +112,7 @@ static void list_unit_items(FILE *f, const struct kiln_catalog *cat,
         if (units->unit_of[i] != u)
             continue;
         char name[4096];
-        kiln_pipeline_item_name(&cat->items[i], name, sizeof name);
+        kiln_catalog_item_name(&cat->items[i], name, sizeof name);
         const char *label = cat->items[i].label;
         fprintf(f, "      %s (%s)\n", name, label[0] ? label : "no label");
         shown++;

@@ -1,6 +1,7 @@
 /* Catalogue storage, ordering and the class map. */
 #include "catalog.h"
 
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -183,4 +184,21 @@ void kiln_catalog_count_status(const struct kiln_catalog *cat, size_t counts[KIL
     memset(counts, 0, KILN_ST_COUNT * sizeof counts[0]);
     for (size_t i = 0; i < cat->n; i++)
         counts[cat->items[i].status]++;
+}
+
+void kiln_catalog_relname(const char *path, const char *member, char *buf, size_t len)
+{
+    if (!member[0])
+        snprintf(buf, len, "%s", path);
+    else if (!path[0])
+        snprintf(buf, len, "%s", member);
+    else
+        snprintf(buf, len, "%s/%s", path, member);
+}
+
+void kiln_catalog_item_name(const struct kiln_item *it, char *buf, size_t len)
+{
+    char rel[4096];
+    kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+    snprintf(buf, len, "%s/%s", it->source, rel);
 }

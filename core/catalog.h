@@ -105,6 +105,12 @@ void kiln_catalog_count_status(const struct kiln_catalog *cat, size_t counts[KIL
  * is written to out (truncated to len, which must be at least 1). */
 void kiln_name_normalise(const char *name, char *out, size_t len);
 
+/* The name the label and group rules see: path, member, or "path/member" (docs/cli.md),
+ * written to buf (truncated to len). */
+void kiln_catalog_relname(const char *path, const char *member, char *buf, size_t len);
+/* The name an item goes by in messages: "source/relname" (truncated to len). */
+void kiln_catalog_item_name(const struct kiln_item *it, char *buf, size_t len);
+
 /* Byte order comparison of two items' locations (source, path, member). */
 int kiln_item_location_cmp(const struct kiln_item *a, const struct kiln_item *b);
 

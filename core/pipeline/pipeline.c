@@ -1,4 +1,4 @@
-/* Helpers every stage shares: item names, paths, and preparing pack's and build's output folder
+/* Helpers every stage shares: paths, and preparing pack's and build's output folder
  * (the files kiln owns there are named in formats/files/manifest.h). */
 #include "pipeline.h"
 
@@ -15,23 +15,6 @@
 
 #include "../../formats/files/manifest.h"
 #include "../../formats/files/outfile.h"
-
-void kiln_pipeline_relname(const char *path, const char *member, char *buf, size_t len)
-{
-    if (!member[0])
-        snprintf(buf, len, "%s", path);
-    else if (!path[0])
-        snprintf(buf, len, "%s", member);
-    else
-        snprintf(buf, len, "%s/%s", path, member);
-}
-
-void kiln_pipeline_item_name(const struct kiln_item *it, char *buf, size_t len)
-{
-    char rel[4096];
-    kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
-    snprintf(buf, len, "%s/%s", it->source, rel);
-}
 
 char *kiln_pipeline_path(const char *dir, const char *name)
 {

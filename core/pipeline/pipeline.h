@@ -1,5 +1,4 @@
-/* What the stages share: progress reports, the names items go by, paths in a folder, and the
- * output folder of pack and build (created, checked to be empty or kiln's, cleared of what
+/* What the stages share: progress reports, paths in a folder, and the output folder of pack and build (created, checked to be empty or kiln's, cleared of what
  * interrupted runs left). Every stage and cmd/ may include it; it includes no stage. */
 #ifndef KILN_PIPELINE_H
 #define KILN_PIPELINE_H
@@ -7,7 +6,6 @@
 #include <stddef.h>
 #include <stdint.h>
 
-#include "../catalog.h"
 #include "../err.h"
 
 /* Progress of a stage, reported to the caller's function (cmd/ draws it). */
@@ -17,11 +15,6 @@ struct kiln_progress {
 };
 typedef void (*kiln_progress_fn)(void *ctx, const struct kiln_progress *p);
 
-/* The name the label and group rules see: path, member, or "path/member" (docs/cli.md). The
- * result is written to buf (truncated to len). */
-void kiln_pipeline_relname(const char *path, const char *member, char *buf, size_t len);
-/* The name an item goes by in messages: "source/relname" (truncated to len). */
-void kiln_pipeline_item_name(const struct kiln_item *it, char *buf, size_t len);
 /* "dir/name", malloc'ed; NULL when memory runs out. */
 char *kiln_pipeline_path(const char *dir, const char *name);
 

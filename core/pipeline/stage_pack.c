@@ -182,7 +182,7 @@ static char *item_fs_path(const struct kiln_item *it)
 static const char *item_name(const struct kiln_item *it, char *buf, size_t len)
 {
     char rel[2048];
-    kiln_pipeline_relname(fetch_path(it), fetch_member(it), rel, sizeof rel);
+    kiln_catalog_relname(fetch_path(it), fetch_member(it), rel, sizeof rel);
     snprintf(buf, len, "%s/%s", fetch_source(it), rel);
     return buf;
 }

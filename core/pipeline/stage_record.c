@@ -233,7 +233,7 @@ json_t *kiln_audit_record(const struct kiln_audit *a, const struct kiln_catalog 
         for (size_t k = 0; k < a->leaks[l].count; k++) {
             const struct kiln_item *it = &cat->items[a->items[a->leaks[l].first + k]];
             char rel[4096];
-            kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
+            kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
             json_t *o = json_object();
             json_object_set_new(o, "name", text(rel));
             json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));

@@ -140,7 +140,7 @@ static int rerun_split(struct kiln_catalog *cat, const json_t *split, kiln_repro
         if (it->split != was[i] || (was[i] >= 0 && it->unit_key != key[i])) {
             if (rep->split_differs++ < 20) {
                 char rel[4096];
-                kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
+                kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
                 note(fn, ctx, KILN_REPRO_SPLIT, "%s: recorded in %s, the rerun split gives %s",
                      rel, was[i] >= 0 ? kiln_split_name(was[i]) : "no split",
                      it->split >= 0 ? kiln_split_name(it->split) : "no split");
@@ -214,7 +214,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
         if (rc)
             goto out;
         char rel[4096];
-        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
+        kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
         if (!hit) {
             rep->missing++;
             char sha[KILN_SHA256_HEX];
@@ -241,8 +241,8 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     for (size_t k = 0; k < rep->moved; k++) {
         const struct kiln_item *it = &cat.items[moved[k]];
         char rel[4096], now[4096];
-        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
-        kiln_pipeline_relname(it->from_path, it->from_member, now, sizeof now);
+        kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+        kiln_catalog_relname(it->from_path, it->from_member, now, sizeof now);
         note(fn, ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from_source, now);
     }
     if (rep->missing && !o->allow_missing) {

@@ -416,7 +416,7 @@ static int process(struct worker *w, struct job *j)
     char path[4096], member[4096], rel[4096], label[1024] = "", group[1024] = "";
     kiln_name_normalise(j->path, path, sizeof path);
     kiln_name_normalise(j->member, member, sizeof member);
-    kiln_pipeline_relname(path, member, rel, sizeof rel);
+    kiln_catalog_relname(path, member, rel, sizeof rel);
     struct label_row *lr = NULL;
     if (o->labels == KILN_LABELS_FOLDER) {
         folder_label(path, member, label, sizeof label);

@@ -309,7 +309,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
             continue;
         rep->sources_checked++;
         char rel[4096];
-        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
+        kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
         const struct kiln_index_entry *hit = kiln_index_find(&idx, it->sha256);
         struct located key = {it->path, it->member, NULL, 0};
         const struct located *at = idx.n ? bsearch(&key, loc, idx.n, sizeof *loc, cmp_located) : NULL;
@@ -343,8 +343,8 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
         const struct kiln_item *it = &cat.items[moved[q].item];
         const struct kiln_index_entry *hit = &idx.e[moved[q].entry];
         char rel[4096], now[4096], msg[8300];
-        kiln_pipeline_relname(it->path, it->member, rel, sizeof rel);
-        kiln_pipeline_relname(hit->path, hit->member, now, sizeof now);
+        kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+        kiln_catalog_relname(hit->path, hit->member, now, sizeof now);
         snprintf(msg, sizeof msg, "%s: found by content as %s/%s", rel, hit->source, now);
         fn(ctx, KILN_ISSUE_SOURCE_MOVED, msg);
     }
@@ -353,7 +353,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
             rep->sources_extra++;
             if (fn) {
                 char now[4096], msg[8300];
-                kiln_pipeline_relname(idx.e[q].path, idx.e[q].member, now, sizeof now);
+                kiln_catalog_relname(idx.e[q].path, idx.e[q].member, now, sizeof now);
                 snprintf(msg, sizeof msg, "%s/%s: not recorded in the output", idx.e[q].source, now);
                 fn(ctx, KILN_ISSUE_SOURCE_EXTRA, msg);
             }
