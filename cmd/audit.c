@@ -3,18 +3,15 @@
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 
-#include "../core/audit.h"
-#include "../formats/files/catalog_csv.h"
-#include "../formats/files/manifest.h"
+#include "../core/pipeline/stage_catalog.h"
 #include "cmd.h"
 
 static int set_near(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
     char *end;
     long n = strtol(v, &end, 10);
-    if (!*v || *end || n < 0 || n > 16)
+    if (!*v || *end || n < 0 || n > KILN_AUDIT_NEAR_BITS_MAX)
         return cli_bad_value(o, v, "use a number of bits from 0 to 16");
     *(int *)a->own = (int)n;
     return 0;
@@ -58,40 +55,16 @@ const struct cli_command cli_audit = {
 /* Everything after option parsing; returns the exit status. */
 static int audit(const char *arg, int near, bool quiet)
 {
-    struct stat st;
-    char *path = NULL;
-    if (stat(arg, &st) == 0 && S_ISDIR(st.st_mode)) {
-        path = kiln_pipeline_path(arg, KILN_FILE_CATALOG);
-    } else {
-        path = strdup(arg);
-    }
-    if (!path) {
-        cli_error("out of memory");
-        return KILN_EXIT_FAILURE;
-    }
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
+    struct kiln_audit a;
     struct kiln_err err;
     kiln_err_clear(&err);
-    bool has_split;
-    int rc = kiln_catalog_csv_load(path, &cat, &has_split, &err);
-    if (!rc)
-        rc = kiln_catalog_index_classes(&cat, &err);
-    if (!rc && !has_split)
-        rc = kiln_err_set(&err, KILN_EINVAL, "%s has no split to audit; run kiln split", path);
+    int rc = kiln_stage_audit(arg, near, &cat, &a, &err);
     if (rc) {
         cli_error("%s", err.msg);
         kiln_catalog_free(&cat);
-        free(path);
         return cli_exit_for_input(rc);
-    }
-    struct kiln_audit a;
-    rc = kiln_audit_run(&cat, near, NULL, &a, &err);
-    if (rc) {
-        cli_error("%s", err.msg);
-        kiln_catalog_free(&cat);
-        free(path);
-        return KILN_EXIT_FAILURE;
     }
     cli_print_audit(stdout, &a, &cat, quiet, SIZE_MAX, "");
     for (int s = 0; s < KILN_NSPLITS; s++)
@@ -102,13 +75,12 @@ static int audit(const char *arg, int near, bool quiet)
     int exit_code = a.nleaks ? KILN_EXIT_LEAK : KILN_EXIT_OK;
     kiln_audit_free(&a);
     kiln_catalog_free(&cat);
-    free(path);
     return exit_code;
 }
 
 static int cmd_audit(int argc, char **argv)
 {
-    int near = 6;
+    int near = KILN_AUDIT_NEAR_BITS;
     struct cli_args a = {.own = &near};
     int code = cli_parse(&cli_audit, argc, argv, &a);
     if (code == CLI_GO)

@@ -81,22 +81,28 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report sprep;
-    json_t *rec = json_object();
+    struct kiln_scan_record scan_rec;
+    struct kiln_split_record split_rec;
+    memset(&scan_rec, 0, sizeof scan_rec);
+    memset(&split_rec, 0, sizeof split_rec);
     int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, so, &cat, &srep, &err);
     cli_progress_done(&prog);
     const bool scan_failed = rc != 0;
-    if (!rc) {
-        json_object_set_new(rec, "scan", kiln_scan_record((const char *const *)sources,
-                                                          (size_t)nsrc, so, &srep, &cat));
+    if (!rc)
         cli_print_scan_summary(stdout, &cat, &srep, so->group_regex, quiet);
-    }
+    if (!rc)
+        rc = kiln_record_scan(&scan_rec, (const char *const *)sources, (size_t)nsrc, so, &srep,
+                              &cat, &err);
     int exit_code = KILN_EXIT_OK;
     if (!rc && (exit_code = cli_split_catalog(&cat, sp, &units, &sprep)) != 0)
         rc = -1; /* already reported */
     if (!rc) {
         cli_print_split_summary(stdout, &cat, &units, sp, &sprep, quiet);
-        json_object_set_new(rec, "split", kiln_split_record(sp, &units, &sprep));
-        po->catalog_record = rec;
+        rc = kiln_record_split(&split_rec, sp, &units, &sprep, &err);
+        po->scan = &scan_rec;
+        po->split = &split_rec;
+    }
+    if (!rc) {
         cli_progress_start(&prog, "pack", quiet);
         po->progress = cli_progress_update;
         po->progress_ctx = &prog;
@@ -112,7 +118,8 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
         exit_code = scan_failed ? cli_exit_for_input(rc) : cli_exit_for(rc);
     }
     kiln_record_pool_close(&pool);
-    json_decref(rec);
+    kiln_scan_record_free(&scan_rec);
+    kiln_split_record_free(&split_rec);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
     cli_sources_free(sources, nsrc);

@@ -215,19 +215,6 @@ void cli_report_debris(const char *outdir, const struct kiln_debris *d)
                  outdir, d->kept, d->kept == 1 ? "file" : "files");
 }
 
-char *cli_catalog_record_path(const char *csv)
-{
-    size_t n = strlen(csv);
-    char *s = malloc(n + 6);
-    if (!s)
-        return NULL;
-    memcpy(s, csv, n + 1);
-    if (n >= 4 && strcmp(s + n - 4, ".csv") == 0)
-        s[n - 4] = '\0';
-    strcat(s, ".json");
-    return s;
-}
-
 void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recipe *r,
                             const struct kiln_pack_report *rep, double seconds, bool quiet)
 {

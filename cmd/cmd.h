@@ -193,7 +193,5 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
 struct kiln_debris;
 void cli_report_debris(const char *outdir, const struct kiln_debris *d);
 
-/* The path of the JSON record that sits beside a catalogue ("x.csv" -> "x.json"); malloc'ed. */
-char *cli_catalog_record_path(const char *catalog_csv);
 
 #endif

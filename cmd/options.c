@@ -9,6 +9,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../core/audit.h"
 #include "../core/pipeline/stage_split.h"
 #include "../formats/sources/source.h"
 #include "cmd.h"
@@ -510,8 +511,8 @@ static int set_mode(struct cli_args *a, const struct cli_opt *o, const char *v)
 static int set_merge_near(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
     char *end;
-    long n = v ? strtol(v, &end, 10) : 6;
-    if (v && (!*v || *end || n < 0 || n > 16))
+    long n = v ? strtol(v, &end, 10) : KILN_AUDIT_NEAR_BITS;
+    if (v && (!*v || *end || n < 0 || n > KILN_AUDIT_NEAR_BITS_MAX))
         return cli_bad_value(o, v, "use a number of bits from 0 to 16");
     a->split->near_bits = (int)n;
     return 0;

@@ -3,8 +3,7 @@
 #include <string.h>
 
 #include "../core/pipeline/stage_pack.h"
-#include "../formats/files/catalog_csv.h"
-#include "../formats/files/manifest.h"
+#include "../core/pipeline/stage_catalog.h"
 #include "cmd.h"
 
 static const struct cli_opt opts[] = {
@@ -46,25 +45,20 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool has_split;
-    int rc = kiln_catalog_csv_load(input, &cat, &has_split, &err);
-    if (!rc)
-        rc = kiln_catalog_index_classes(&cat, &err);
-    if (!rc && !has_split)
-        rc = kiln_err_set(&err, KILN_EINVAL, "%s has no split column values; run kiln split",
-                          input);
+    int rc = kiln_stage_catalog_load(input, true, "column values", &cat, &has_split, &err);
     if (rc) {
         cli_error("%s", err.msg);
         kiln_catalog_free(&cat);
         return cli_exit_for_input(rc);
     }
-    char *rec_path = cli_catalog_record_path(input);
-    json_t *rec = NULL;
+    struct kiln_scan_record *scan = NULL;
+    struct kiln_split_record *split = NULL;
     struct kiln_err lerr;
-    if (!rec_path || kiln_json_load(rec_path, &rec, &lerr) != 0) {
-        cli_warn("no record beside %s; the manifest will lack scan and split details", input);
-        rec = NULL;
-    }
-    o->catalog_record = rec;
+    if (kiln_stage_catalog_load_record(input, &scan, &split, &lerr) != 0)
+        cli_warn("no record beside %s (%s); the manifest will lack scan and split details", input,
+                 lerr.msg);
+    o->scan = scan;
+    o->split = split;
     struct cli_progress prog;
     cli_progress_start(&prog, "pack", quiet);
     o->progress = cli_progress_update;
@@ -80,8 +74,10 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
     } else {
         cli_print_pack_summary(stdout, o->outdir, &o->recipe, &rep, cli_elapsed(&prog), quiet);
     }
-    json_decref(rec);
-    free(rec_path);
+    kiln_scan_record_free(scan);
+    kiln_split_record_free(split);
+    free(scan);
+    free(split);
     kiln_catalog_free(&cat);
     return exit_code;
 }

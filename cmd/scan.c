@@ -4,8 +4,7 @@
 #include <string.h>
 
 #include "../core/pipeline/stage_record.h"
-#include "../formats/files/catalog_csv.h"
-#include "../formats/files/manifest.h"
+#include "../core/pipeline/stage_catalog.h"
 #include "cmd.h"
 
 static int set_strict(struct cli_args *a, const struct cli_opt *o, const char *v)
@@ -80,19 +79,13 @@ static int scan(struct cli_args *a, struct kiln_scan_opts *o, const struct kiln_
         cli_error("%s", err.msg);
         exit_code = cli_exit_for_input(rc); /* a source or labels file that cannot be read */
     } else {
-        rc = kiln_catalog_csv_save(output, &cat, &err);
-        char *rec_path = cli_catalog_record_path(output);
-        json_t *rec = json_object();
-        json_object_set_new(rec, "catalog", json_string(output));
-        json_object_set_new(rec, "scan",
-                            kiln_scan_record((const char *const *)sources, (size_t)nsrc, o,
-                                             &rep, &cat));
-        json_object_set_new(rec, "split", json_null());
+        struct kiln_scan_record srec;
+        rc = kiln_record_scan(&srec, (const char *const *)sources, (size_t)nsrc, o, &rep, &cat,
+                              &err);
+        struct kiln_catalog_record crec = {.scan = &srec};
         if (!rc)
-            rc = rec_path ? kiln_json_save(rec_path, rec, &err)
-                          : kiln_err_set(&err, KILN_ENOMEM, "out of memory");
-        json_decref(rec);
-        free(rec_path);
+            rc = kiln_stage_catalog_save(output, &cat, &crec, &err);
+        kiln_scan_record_free(&srec);
         if (rc) {
             cli_error("%s", err.msg);
             exit_code = cli_exit_for(rc) == KILN_EXIT_INPUT ? KILN_EXIT_FAILURE : cli_exit_for(rc);

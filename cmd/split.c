@@ -3,11 +3,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "../core/audit.h"
 #include "../core/pipeline/stage_record.h"
 #include "../core/pipeline/stage_split.h"
-#include "../formats/files/catalog_csv.h"
-#include "../formats/files/manifest.h"
+#include "../core/pipeline/stage_catalog.h"
 #include "cmd.h"
 
 static const struct cli_opt opts[] = {
@@ -52,9 +50,7 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool had_split;
-    int rc = kiln_catalog_csv_load(input, &cat, &had_split, &err);
-    if (!rc)
-        rc = kiln_catalog_index_classes(&cat, &err);
+    int rc = kiln_stage_catalog_load(input, false, "", &cat, &had_split, &err);
     if (rc) {
         cli_error("%s", err.msg);
         kiln_catalog_free(&cat);
@@ -64,57 +60,48 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     memset(&units, 0, sizeof units);
     struct kiln_split_report rep;
     code = cli_split_catalog(&cat, p, &units, &rep);
-    if (code) {
-        kiln_units_free(&units);
-        kiln_catalog_free(&cat);
-        return code;
-    }
-    char *in_rec = cli_catalog_record_path(input), *out_rec = cli_catalog_record_path(output);
-    json_t *rec = NULL;
-    struct kiln_err lerr;
-    if (in_rec && kiln_json_load(in_rec, &rec, &lerr) != 0) {
+    struct kiln_scan_record *scan = NULL;
+    struct kiln_split_record *old = NULL, srec;
+    struct kiln_catalog_record crec = {.split = &srec};
+    if (!code && kiln_stage_catalog_load_record(input, &scan, &old, &err) != 0)
         cli_warn("no scan record beside %s (%s); the manifest will lack scan details", input,
-                 lerr.msg);
-        rec = NULL;
-    }
-    if (!rec)
-        rec = json_object();
-    json_object_set_new(rec, "catalog", json_string(output));
-    json_t *srec = kiln_split_record(p, &units, &rep);
+                 err.msg);
+    crec.scan = scan;
+    rc = code ? KILN_OK : kiln_record_split(&srec, p, &units, &rep, &err);
     struct kiln_audit audit;
     struct kiln_err aerr = {0};
-    bool audited = kiln_audit_run(&cat, p->near_bits >= 0 ? p->near_bits : 6, NULL, &audit, &aerr) == 0;
-    if (audited)
-        json_object_set_new(srec, "audit", kiln_audit_record(&audit, &cat));
-    else
-        cli_warn("the leakage audit could not run: %s (the split is written without it)", aerr.msg);
-    json_object_set_new(rec, "split", srec);
-    rc = kiln_catalog_csv_save(output, &cat, &err);
-    if (!rc)
-        rc = out_rec ? kiln_json_save(out_rec, rec, &err) : kiln_err_set(&err, KILN_ENOMEM, "oom");
-    int exit_code = KILN_EXIT_OK;
-    if (rc) {
-        cli_error("%s", err.msg);
-        exit_code = KILN_EXIT_FAILURE;
-    } else {
-        cli_print_split_summary(stdout, &cat, &units, p, &rep, quiet);
-    }
-    if (!rc && !quiet) {
-        if (had_split)
-            printf("(the catalogue's previous split was replaced)\n");
-        printf("split catalogue written to %s\n", output);
-    }
+    const bool audited = !code && !rc && kiln_stage_split_audit(&cat, p, &audit, &aerr) == 0;
     if (audited) {
-        if (exit_code == KILN_EXIT_OK)
-            cli_print_audit(stdout, &audit, &cat, quiet, 20, output);
-        kiln_audit_free(&audit);
+        crec.audit = &audit;
+        crec.audit_cat = &cat;
+    } else if (!code && !rc) {
+        cli_warn("the leakage audit could not run: %s (the split is written without it)", aerr.msg);
     }
-    json_decref(rec);
-    free(in_rec);
-    free(out_rec);
+    if (!code && !rc)
+        rc = kiln_stage_catalog_save(output, &cat, &crec, &err);
+    if (!code && rc) {
+        cli_error("%s", err.msg);
+        code = KILN_EXIT_FAILURE;
+    } else if (!code) {
+        cli_print_split_summary(stdout, &cat, &units, p, &rep, quiet);
+        if (!quiet && had_split)
+            printf("(the catalogue's previous split was replaced)\n");
+        if (!quiet)
+            printf("split catalogue written to %s\n", output);
+        if (audited)
+            cli_print_audit(stdout, &audit, &cat, quiet, 20, output);
+    }
+    if (audited)
+        kiln_audit_free(&audit);
+    if (!code)
+        kiln_split_record_free(&srec);
+    kiln_scan_record_free(scan);
+    kiln_split_record_free(old);
+    free(scan);
+    free(old);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
-    return exit_code;
+    return code;
 }
 
 static int cmd_split(int argc, char **argv)

@@ -13,7 +13,13 @@
 
 enum kiln_leak_kind { KILN_LEAK_GROUP = 0, KILN_LEAK_BYTES, KILN_LEAK_PIXELS, KILN_LEAK_NEAR,
                       KILN_LEAK_KINDS };
-const char *kiln_leak_kind_name(int kind); /* "group", "identical-file", ... */
+const char *kiln_leak_kind_name(int kind);
+
+/* The near-duplicate radius in bits of the difference hash: the audit's default (split
+ * --merge-near-duplicates without a value, and audit without --near), and the largest any
+ * option accepts. */
+#define KILN_AUDIT_NEAR_BITS 6
+#define KILN_AUDIT_NEAR_BITS_MAX 16 /* "group", "identical-file", ... */
 
 /* One finding: the items (indices into the catalogue) of one group, one set of identical
  * files or pixels, or one cluster of near-identical pictures (connected through pairs within

@@ -5,9 +5,9 @@
 #ifndef KILN_STAGE_PACK_H
 #define KILN_STAGE_PACK_H
 
-#include <jansson.h>
 #include <stdbool.h>
 
+#include "../../formats/files/manifest.h"
 #include "../catalog.h"
 #include "../err.h"
 #include "../recipe.h"
@@ -19,7 +19,11 @@ struct kiln_pack_opts {
     const char *outdir;
     unsigned jobs;
     size_t queue_bytes;
-    const json_t *catalog_record; /* catalog.json (scan and split record) or NULL */
+    /* The records of how the catalogue was made (catalog.json), copied into the manifest with
+     * their names in output form; NULL: unknown (null). The split record's parts decide
+     * whether val.kten is written. */
+    const struct kiln_scan_record *scan;
+    const struct kiln_split_record *split;
     /* With recipe.hash_paths, every name reaches the outputs as "h:" + 32 hex digits of
      * HMAC-SHA256(path_key, name) (core/names.h, docs/formats.md); names hashed already (a
      * reproduced hashed output) stay as they are. */

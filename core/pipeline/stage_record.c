@@ -1,249 +1,158 @@
-/* Building and reading the scan and split records. */
+/* Filling the scan and split records, and their output form. */
 #include "stage_record.h"
 
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "../audit.h"
 #include "../names.h"
-#include "stage_scan.h"
 #include "../textesc.h"
 #include "../version.h"
 
-static json_t *text(const char *s)
+/* A malloc'ed recorded form of user text (escaped); NULL only when memory runs out. */
+static char *recorded(const char *raw, int *rc, struct kiln_err *err)
 {
-    char *e = kiln_text_escape(s);
-    json_t *j = json_string(e ? e : "");
-    free(e);
-    return j;
+    char *e = *rc ? NULL : kiln_text_escape(raw);
+    if (!e && !*rc)
+        *rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    return e;
 }
 
-json_t *kiln_scan_record(const char *const *sources, size_t nsources,
-                         const struct kiln_scan_opts *o, const struct kiln_scan_report *rep,
-                         const struct kiln_catalog *cat)
+int kiln_record_scan(struct kiln_scan_record *r, const char *const *sources, size_t nsources,
+                     const struct kiln_scan_opts *o, const struct kiln_scan_report *rep,
+                     const struct kiln_catalog *cat, struct kiln_err *err)
 {
-    json_t *j = json_object();
-    json_t *src = json_array();
-    for (size_t i = 0; i < nsources; i++)
-        json_array_append_new(src, text(sources[i]));
-    json_object_set_new(j, "kiln_version", json_string(KILN_VERSION));
-    json_object_set_new(j, "sources", src);
-    json_object_set_new(j, "labels", json_string(kiln_label_rule_name(o->labels)));
-    json_object_set_new(j, "labels_csv", o->labels_csv ? text(o->labels_csv) : json_null());
-    json_object_set_new(j, "group_regex", o->group_regex ? text(o->group_regex) : json_null());
-    json_object_set_new(j, "follow_links", json_boolean(o->walk.follow_links));
-    json_object_set_new(j, "max_pixels", json_integer((json_int_t)o->limits.max_pixels));
-    json_object_set_new(j, "max_side", json_integer(o->limits.max_side));
-    json_object_set_new(j, "rows", json_integer((json_int_t)cat->n));
-    json_t *st = json_object();
-    for (int s = 0; s < KILN_ST_COUNT; s++)
-        if (rep->status[s])
-            json_object_set_new(st, kiln_status_name(s), json_integer((json_int_t)rep->status[s]));
-    json_object_set_new(j, "status_counts", st);
-    json_object_set_new(j, "hidden_skipped", json_integer((json_int_t)rep->hidden));
-    json_object_set_new(j, "system_files_skipped", json_integer((json_int_t)rep->junk));
-    if (o->group_regex) {
-        json_object_set_new(j, "group_matched", json_integer((json_int_t)rep->group_matched));
-        json_object_set_new(j, "group_unmatched", json_integer((json_int_t)rep->group_unmatched));
-    }
-    if (o->labels == KILN_LABELS_CSV) {
-        json_object_set_new(j, "labels_csv_rows", json_integer((json_int_t)rep->csv_rows));
-        json_object_set_new(j, "labels_csv_rows_without_file",
-                            json_integer((json_int_t)rep->csv_rows_unused));
-    }
-    return j;
+    memset(r, 0, sizeof *r);
+    int rc = KILN_OK;
+    snprintf(r->kiln_version, sizeof r->kiln_version, "%s", KILN_VERSION);
+    r->sources = calloc(nsources + 1, sizeof *r->sources);
+    if (!r->sources)
+        rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    for (size_t i = 0; !rc && i < nsources; i++)
+        if ((r->sources[i] = recorded(sources[i], &rc, err)))
+            r->nsources++;
+    snprintf(r->labels, sizeof r->labels, "%s", kiln_label_rule_name(o->labels));
+    if (o->labels_csv)
+        r->labels_csv = recorded(o->labels_csv, &rc, err);
+    if (o->group_regex)
+        r->group_regex = recorded(o->group_regex, &rc, err);
+    r->follow_links = o->walk.follow_links;
+    r->max_pixels = o->limits.max_pixels;
+    r->max_side = o->limits.max_side;
+    r->rows = cat->n;
+    memcpy(r->status, rep->status, sizeof r->status);
+    r->hidden = rep->hidden;
+    r->junk = rep->junk;
+    r->has_group_counts = o->group_regex != NULL;
+    r->group_matched = rep->group_matched;
+    r->group_unmatched = rep->group_unmatched;
+    r->has_csv_counts = o->labels == KILN_LABELS_CSV;
+    r->csv_rows = rep->csv_rows;
+    r->csv_rows_unused = rep->csv_rows_unused;
+    if (rc)
+        kiln_scan_record_free(r);
+    return rc;
 }
 
-json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_units *u,
-                          const struct kiln_split_report *rep)
+int kiln_record_split(struct kiln_split_record *r, const struct kiln_split_params *p,
+                      const struct kiln_units *u, const struct kiln_split_report *rep,
+                      struct kiln_err *err)
 {
-    json_t *j = json_object();
-    char ratios[96];
-    kiln_split_format_ratios(p, ratios, sizeof ratios);
-    char seed[32];
-    snprintf(seed, sizeof seed, "%llu", (unsigned long long)p->seed);
-    json_object_set_new(j, "algorithm", json_string(KILN_SPLIT_ALGORITHM));
-    /* The seed is a string: 64-bit values do not survive every JSON reader as numbers. */
-    json_object_set_new(j, "seed", json_string(seed));
-    json_object_set_new(j, "ratios", json_string(ratios));
-    json_object_set_new(j, "parts", json_integer(p->nparts));
-    json_object_set_new(j, "mode", json_string(kiln_split_mode_name(p->mode)));
-    json_object_set_new(j, "stratify", json_boolean(p->stratify));
-    json_object_set_new(j, "merge_near_duplicates",
-                        p->near_bits >= 0 ? json_integer(p->near_bits) : json_null());
-    if (p->keep_manifest) {
-        json_t *k = json_object();
-        json_object_set_new(k, "manifest", text(p->keep_manifest ? p->keep_manifest : ""));
-        json_object_set_new(k, "manifest_sha256", json_string(p->keep_sha256));
-        json_object_set_new(k, "conflicts", json_string(p->keep_to_test ? "test" : "error"));
-        json_object_set_new(k, "kept_units", json_integer((json_int_t)rep->kept_units));
-        json_object_set_new(k, "kept_items", json_integer((json_int_t)rep->kept_items));
-        json_object_set_new(k, "moved_items", json_integer((json_int_t)rep->moved_items));
-        json_object_set_new(j, "keep", k);
-    } else {
-        json_object_set_new(j, "keep", json_null());
+    memset(r, 0, sizeof *r);
+    int rc = KILN_OK;
+    snprintf(r->algorithm, sizeof r->algorithm, "%s", KILN_SPLIT_ALGORITHM);
+    r->seed = p->seed;
+    kiln_split_format_ratios(p, r->ratios, sizeof r->ratios);
+    r->parts = p->nparts;
+    snprintf(r->mode, sizeof r->mode, "%s", kiln_split_mode_name(p->mode));
+    r->stratify = p->stratify;
+    r->near_bits = p->near_bits;
+    r->keep = p->keep_manifest != NULL;
+    if (r->keep) {
+        r->keep_manifest = recorded(p->keep_manifest, &rc, err);
+        memcpy(r->keep_sha256, p->keep_sha256, sizeof r->keep_sha256);
+        r->keep_to_test = p->keep_to_test;
+        r->kept_units = rep->kept_units;
+        r->kept_items = rep->kept_items;
+        r->moved_items = rep->moved_items;
     }
-    json_object_set_new(j, "units", json_integer((json_int_t)rep->units));
-    json_object_set_new(j, "merged_by_group", json_integer((json_int_t)u->merged_groups));
-    json_object_set_new(j, "merged_by_bytes", json_integer((json_int_t)u->merged_bytes));
-    json_object_set_new(j, "merged_by_pixels", json_integer((json_int_t)u->merged_pixels));
-    json_object_set_new(j, "merged_by_near_duplicates", json_integer((json_int_t)u->merged_near));
-    json_object_set_new(j, "mixed_label_units", json_integer((json_int_t)rep->mixed_units));
-    json_object_set_new(j, "oversized_units", json_integer((json_int_t)rep->oversized_units));
-    json_t *items = json_object();
-    for (int s = 0; s < KILN_NSPLITS; s++)
-        if (s != KILN_SPLIT_VAL || p->nparts == 3)
-            json_object_set_new(items, kiln_split_name(s), json_integer((json_int_t)rep->items[s]));
-    json_object_set_new(j, "items", items);
-    return j;
+    r->units = rep->units;
+    r->merged_by_group = u->merged_groups;
+    r->merged_by_bytes = u->merged_bytes;
+    r->merged_by_pixels = u->merged_pixels;
+    r->merged_by_near = u->merged_near;
+    r->mixed_units = rep->mixed_units;
+    r->oversized_units = rep->oversized_units;
+    memcpy(r->items, rep->items, sizeof r->items);
+    return rc;
 }
 
-int kiln_split_params_from_record(const json_t *split, struct kiln_split_params *p,
-                                  struct kiln_err *err)
+int kiln_record_split_params(const struct kiln_split_record *r, struct kiln_split_params *p,
+                             struct kiln_err *err)
 {
     memset(p, 0, sizeof *p);
-    const char *alg = json_string_value(json_object_get(split, "algorithm"));
-    const char *seed = json_string_value(json_object_get(split, "seed"));
-    const char *ratios = json_string_value(json_object_get(split, "ratios"));
-    const char *mode = json_string_value(json_object_get(split, "mode"));
-    if (!alg || !seed || !ratios || !mode)
-        return kiln_err_set(err, KILN_EINVAL, "split record lacks algorithm, seed, ratios or mode");
-    if (strcmp(alg, KILN_SPLIT_ALGORITHM) != 0)
-        return kiln_err_set(err, KILN_EUNSUPPORTED, "split algorithm %s is not %s", alg,
+    if (strcmp(r->algorithm, KILN_SPLIT_ALGORITHM) != 0)
+        return kiln_err_set(err, KILN_EUNSUPPORTED, "split algorithm %s is not %s", r->algorithm,
                             KILN_SPLIT_ALGORITHM);
-    char *end;
-    p->seed = strtoull(seed, &end, 10);
-    if (!*seed || *end)
-        return kiln_err_set(err, KILN_EINVAL, "bad recorded seed '%s'", seed);
+    p->seed = r->seed;
     bool note;
-    int rc = kiln_split_parse_ratios(ratios, p, &note, err);
+    int rc = kiln_split_parse_ratios(r->ratios, p, &note, err);
     if (rc)
         return rc;
-    p->mode = kiln_split_mode_parse(mode);
+    p->mode = kiln_split_mode_parse(r->mode);
     if (p->mode < 0)
-        return kiln_err_set(err, KILN_EINVAL, "bad recorded mode '%s'", mode);
-    p->stratify = json_is_true(json_object_get(split, "stratify"));
-    const json_t *near = json_object_get(split, "merge_near_duplicates");
-    p->near_bits = json_is_integer(near) ? (int)json_integer_value(near) : -1;
+        return kiln_err_set(err, KILN_EINVAL, "bad recorded mode '%s'", r->mode);
+    p->stratify = r->stratify;
+    p->near_bits = r->near_bits;
     return KILN_OK;
 }
 
-/* String fields of the scan and split records that never hold a name. */
-static const char *const name_free[] = {"kiln_version", "labels",          "algorithm",
-                                        "seed",         "ratios",          "mode",
-                                        "conflicts",    "manifest_sha256"};
-
-static bool is_name_free(const char *key)
+/* *out = the output form of s (malloc'ed); s NULL stays NULL. */
+static int public_name(const struct kiln_names *n, const char *s, char **out, struct kiln_err *err)
 {
-    for (size_t i = 0; i < sizeof name_free / sizeof name_free[0]; i++)
-        if (strcmp(key, name_free[i]) == 0)
-            return true;
-    return false;
+    *out = NULL;
+    if (!s)
+        return KILN_OK;
+    char buf[KILN_NAME_HASH_LEN];
+    const char *shown;
+    int rc = kiln_names_out(n, s, buf, &shown, err);
+    if (!rc && !(*out = strdup(shown)))
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot copy the records");
+    return rc;
 }
 
-/* Copies v; strings go through the names unless key says they cannot hold one. */
-static json_t *public_value(const json_t *v, const char *key, const struct kiln_names *n,
-                            struct kiln_err *err)
+static int public_scan(const struct kiln_scan_record *in, const struct kiln_names *n,
+                       struct kiln_scan_record *out, struct kiln_err *err)
 {
-    if (json_is_string(v)) {
-        if (key && is_name_free(key))
-            return json_incref((json_t *)v);
-        char buf[KILN_NAME_HASH_LEN];
-        const char *out;
-        return kiln_names_out(n, json_string_value(v), buf, &out, err) ? NULL : json_string(out);
-    }
-    if (json_is_array(v)) {
-        json_t *a = json_array();
-        size_t i;
-        const json_t *e;
-        json_array_foreach(v, i, e)
-        {
-            json_t *c = public_value(e, key, n, err);
-            if (!c || json_array_append_new(a, c)) {
-                json_decref(a);
-                return NULL;
-            }
-        }
-        return a;
-    }
-    if (json_is_object(v)) {
-        json_t *o = json_object();
-        const char *k;
-        const json_t *e;
-        json_object_foreach((json_t *)v, k, e)
-        {
-            json_t *c = public_value(e, k, n, err);
-            if (!c || json_object_set_new(o, k, c)) {
-                json_decref(o);
-                return NULL;
-            }
-        }
-        return o;
-    }
-    return json_deep_copy(v); /* numbers, booleans, null */
+    *out = *in;
+    out->sources = calloc(in->nsources + 1, sizeof *out->sources);
+    out->nsources = 0;
+    out->labels_csv = out->group_regex = NULL;
+    int rc = out->sources ? KILN_OK : kiln_err_set(err, KILN_ENOMEM, "cannot copy the records");
+    for (size_t i = 0; !rc && i < in->nsources; i++)
+        if (!(rc = public_name(n, in->sources[i], &out->sources[i], err)))
+            out->nsources++;
+    if (!rc)
+        rc = public_name(n, in->labels_csv, &out->labels_csv, err);
+    if (!rc)
+        rc = public_name(n, in->group_regex, &out->group_regex, err);
+    return rc;
 }
 
-json_t *kiln_record_public(const json_t *record, const struct kiln_names *n, struct kiln_err *err)
+int kiln_record_public(const struct kiln_scan_record *scan, const struct kiln_split_record *split,
+                       const struct kiln_names *n, struct kiln_scan_record *scan_out,
+                       struct kiln_split_record *split_out, struct kiln_err *err)
 {
-    kiln_err_clear(err);
-    json_t *out = json_object();
-    static const char *const parts[] = {"scan", "split"};
-    for (size_t i = 0; out && i < 2; i++) {
-        const json_t *part = json_object_get(record, parts[i]);
-        json_t *copy = part ? public_value(part, NULL, n, err) : json_null();
-        if (!copy) {
-            json_decref(out);
-            if (err->code == KILN_OK) /* jansson could not allocate */
-                kiln_err_set(err, KILN_ENOMEM, "cannot copy the %s record", parts[i]);
-            return NULL;
-        }
-        json_object_del(copy, "audit");
-        json_object_set_new(out, parts[i], copy);
+    memset(scan_out, 0, sizeof *scan_out);
+    memset(split_out, 0, sizeof *split_out);
+    int rc = scan ? public_scan(scan, n, scan_out, err) : KILN_OK;
+    if (!rc && split) {
+        *split_out = *split;
+        rc = public_name(n, split->keep_manifest, &split_out->keep_manifest, err);
     }
-    return out;
-}
-
-#define AUDIT_LISTED 100
-
-json_t *kiln_audit_record(const struct kiln_audit *a, const struct kiln_catalog *cat)
-{
-    json_t *j = json_object();
-    json_object_set_new(j, "near_duplicate_bits",
-                        a->near_bits >= 0 ? json_integer(a->near_bits) : json_null());
-    json_object_set_new(j, "clean", json_boolean(a->nleaks == 0));
-    json_t *counts = json_object();
-    for (int k = 0; k < KILN_LEAK_KINDS; k++)
-        json_object_set_new(counts, kiln_leak_kind_name(k), json_integer((json_int_t)a->per_kind[k]));
-    json_object_set_new(j, "spanning_splits", counts);
-    json_t *missing = json_array();
-    for (int s = 0; s < KILN_NSPLITS; s++)
-        for (size_t c = 0; c < a->nclasses; c++)
-            if (a->missing[(size_t)s * a->nclasses + c]) {
-                json_t *m = json_object();
-                json_object_set_new(m, "split", json_string(kiln_split_name(s)));
-                json_object_set_new(m, "class", text(cat->classes[c]));
-                json_array_append_new(missing, m);
-            }
-    json_object_set_new(j, "classes_missing", missing);
-    json_t *list = json_array();
-    for (size_t l = 0; l < a->nleaks && l < AUDIT_LISTED; l++) {
-        json_t *f = json_object(), *items = json_array();
-        json_object_set_new(f, "kind", json_string(kiln_leak_kind_name(a->leaks[l].kind)));
-        for (size_t k = 0; k < a->leaks[l].count; k++) {
-            const struct kiln_item *it = &cat->items[a->items[a->leaks[l].first + k]];
-            char rel[4096];
-            kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
-            json_t *o = json_object();
-            json_object_set_new(o, "name", text(rel));
-            json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));
-            json_array_append_new(items, o);
-        }
-        json_object_set_new(f, "items", items);
-        json_array_append_new(list, f);
+    if (rc) {
+        kiln_scan_record_free(scan_out);
+        kiln_split_record_free(split_out);
     }
-    json_object_set_new(j, "findings", list);
-    json_object_set_new(j, "findings_not_listed",
-                        json_integer((json_int_t)(a->nleaks > AUDIT_LISTED ? a->nleaks - AUDIT_LISTED : 0)));
-    return j;
+    return rc;
 }

@@ -1,34 +1,34 @@
-/* The JSON record of how a catalogue was made (scan options and counts, split parameters and
- * results). It sits beside catalog.csv as catalog.json and is copied into manifest.json. */
+/* The records of how a catalogue was made (scan options and counts, split parameters and
+ * results): filled from what the stages used and found, given their output names, and read back
+ * into split parameters (reproduce). Their types and their JSON are formats/files/manifest.h's. */
 #ifndef KILN_STAGE_RECORD_H
 #define KILN_STAGE_RECORD_H
 
-#include <jansson.h>
-
+#include "../../formats/files/manifest.h"
 #include "../split.h"
-#include "stage_scan.h"
 #include "../units.h"
+#include "stage_scan.h"
 
-json_t *kiln_scan_record(const char *const *sources, size_t nsources,
-                         const struct kiln_scan_opts *o, const struct kiln_scan_report *rep,
-                         const struct kiln_catalog *cat);
-json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_units *u,
-                          const struct kiln_split_report *rep);
-/* Reads the split parameters back from a split record (reproduce). */
-int kiln_split_params_from_record(const json_t *split, struct kiln_split_params *p,
-                                  struct kiln_err *err);
+/* Fills r (freed with kiln_scan_record_free) from a finished scan. */
+int kiln_record_scan(struct kiln_scan_record *r, const char *const *sources, size_t nsources,
+                     const struct kiln_scan_opts *o, const struct kiln_scan_report *rep,
+                     const struct kiln_catalog *cat, struct kiln_err *err);
+/* Fills r (freed with kiln_split_record_free) from a finished split. */
+int kiln_record_split(struct kiln_split_record *r, const struct kiln_split_params *p,
+                      const struct kiln_units *u, const struct kiln_split_report *rep,
+                      struct kiln_err *err);
+/* The split parameters a record gives (reproduce reruns them). */
+int kiln_record_split_params(const struct kiln_split_record *r, struct kiln_split_params *p,
+                             struct kiln_err *err);
 
-/* The scan and split records of catalog.json as an output may show them: a copy in which every
- * string value is passed through kiln_names_out unless its key is known to hold no name (rule
- * names, versions, digests, the seed and ratios); names therefore come out hashed with
- * --hash-paths, including those of fields added later. The split record's audit is left out:
- * pack audits what it packed and records that (manifest.json "audit"). NULL on failure. */
+/* The records as an output may show them: copies (into *scan_out and *split_out, freed with
+ * kiln_*_record_free) whose names -- the sources, the labels CSV, the group rule and the --keep
+ * manifest -- pass through kiln_names_out, so they come out hashed with --hash-paths. A field
+ * added to the records that can hold a name must be added here. NULL records stay NULL (the
+ * outputs are then left zeroed). */
 struct kiln_names;
-json_t *kiln_record_public(const json_t *record, const struct kiln_names *n, struct kiln_err *err);
-
-/* The audit result for manifest.json and catalog.json: counts per kind, the classes missing
- * from a split, and the findings (at most 100, each with its items' names and splits). */
-struct kiln_audit;
-json_t *kiln_audit_record(const struct kiln_audit *a, const struct kiln_catalog *cat);
+int kiln_record_public(const struct kiln_scan_record *scan, const struct kiln_split_record *split,
+                       const struct kiln_names *n, struct kiln_scan_record *scan_out,
+                       struct kiln_split_record *split_out, struct kiln_err *err);
 
 #endif

@@ -113,11 +113,12 @@ static void compare_libraries(const json_t *m, kiln_reproduce_fn fn, void *ctx,
 
 /* Reruns the recorded split on the relocated catalogue and counts items that land elsewhere.
  * Units are formed from content, so with every item found the split must not change. */
-static int rerun_split(struct kiln_catalog *cat, const json_t *split, kiln_reproduce_fn fn,
-                       void *ctx, struct kiln_reproduce_report *rep, struct kiln_err *err)
+static int rerun_split(struct kiln_catalog *cat, const struct kiln_split_record *split,
+                       kiln_reproduce_fn fn, void *ctx, struct kiln_reproduce_report *rep,
+                       struct kiln_err *err)
 {
     struct kiln_split_params p;
-    int rc = kiln_split_params_from_record(split, &p, err);
+    int rc = kiln_record_split_params(split, &p, err);
     if (rc)
         return rc;
     int8_t *was = kiln_alloc_array(cat->n ? cat->n : 1, 1);
@@ -166,7 +167,8 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     struct kiln_index idx;
     memset(&idx, 0, sizeof idx);
     kiln_arena_init(&idx.strings);
-    json_t *record = NULL;
+    struct kiln_scan_record *scan = NULL;
+    struct kiln_split_record *split = NULL;
     uint32_t *moved = NULL; /* items found elsewhere than recorded */
     struct kiln_pack_opts po;
     memset(&po, 0, sizeof po);
@@ -184,6 +186,8 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
                           o->manifest);
     if (!rc)
         rc = kiln_recipe_from_json(json_object_get(m, "recipe"), &po.recipe, err);
+    if (!rc && (rc = kiln_manifest_read_records(m, &scan, &split, err)) != 0)
+        kiln_err_prefix(err, "%s", o->manifest);
     bool has_split;
     if (!rc)
         rc = kiln_catalog_csv_load(cpath, &cat, &has_split, err);
@@ -254,20 +258,16 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     }
     /* Rerun the recorded split, unless it depended on an earlier output (--keep) or items are
      * missing (which would reshuffle exact-mode dealing): then the recorded splits stand. */
-    json_t *split = json_object_get(m, "split");
     /* Hashed group keys (--hash-paths) no longer give the unit ids either. */
-    if (json_is_object(split) && json_is_null(json_object_get(split, "keep")) && !rep->missing &&
-        !po.recipe.hash_paths) {
+    if (split && !split->keep && !rep->missing && !po.recipe.hash_paths) {
         rc = rerun_split(&cat, split, fn, ctx, rep, err);
         if (rc)
             goto out;
     }
-    record = json_object();
-    json_object_set(record, "scan", json_object_get(m, "scan"));
-    json_object_set(record, "split", split);
     po.outdir = o->outdir;
     po.jobs = o->jobs;
-    po.catalog_record = record;
+    po.scan = scan;
+    po.split = split;
     po.progress = o->progress;
     po.progress_ctx = o->progress_ctx;
     struct kiln_pack_report prep;
@@ -289,7 +289,10 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
         compare_output(o->outdir, KILN_FILE_MANIFEST, NULL, o->manifest, rep);
 out:
     free(moved);
-    json_decref(record);
+    kiln_scan_record_free(scan);
+    kiln_split_record_free(split);
+    free(scan);
+    free(split);
     kiln_catalog_free(&cat); /* before the index: items point into its strings */
     kiln_index_free(&idx);
     free(cpath);

@@ -51,3 +51,10 @@ int kiln_stage_split(struct kiln_catalog *cat, struct kiln_split_params *p,
     }
     return rc;
 }
+
+int kiln_stage_split_audit(const struct kiln_catalog *cat, const struct kiln_split_params *p,
+                           struct kiln_audit *a, struct kiln_err *err)
+{
+    return kiln_audit_run(cat, p->near_bits >= 0 ? p->near_bits : KILN_AUDIT_NEAR_BITS, NULL, a,
+                          err);
+}

@@ -6,6 +6,7 @@
 
 #include <stdint.h>
 
+#include "../audit.h"
 #include "../catalog.h"
 #include "../err.h"
 #include "../split.h"
@@ -22,5 +23,10 @@ void kiln_stage_split_defaults(struct kiln_split_params *p);
 int kiln_stage_split(struct kiln_catalog *cat, struct kiln_split_params *p,
                      struct kiln_units *units, struct kiln_split_report *rep, int8_t **old_split,
                      struct kiln_err *err);
+
+/* kiln split's audit of the catalogue it split, at the radius the split merged near duplicates
+ * at (else the default); a is the caller's to free. */
+int kiln_stage_split_audit(const struct kiln_catalog *cat, const struct kiln_split_params *p,
+                           struct kiln_audit *a, struct kiln_err *err);
 
 #endif

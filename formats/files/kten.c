@@ -118,6 +118,20 @@ int kiln_kten_write(struct kiln_kten_writer *w, size_t a, uint64_t off, const vo
     return kiln_pwrite_all(w->out.fd, data, len, (long long)(ar->offset + off), err);
 }
 
+int kiln_kten_write_le32(struct kiln_kten_writer *w, size_t a, const uint32_t *values, size_t n,
+                         struct kiln_err *err)
+{
+    uint8_t *bytes = kiln_alloc_array(n ? n : 1, 4);
+    if (!bytes)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate %zu values", n);
+    for (size_t i = 0; i < n; i++)
+        for (int b = 0; b < 4; b++) /* little-endian on every host (docs/format.md) */
+            bytes[4 * i + (size_t)b] = (uint8_t)(values[i] >> (8 * b));
+    int rc = n ? kiln_kten_write(w, a, 0, bytes, n * 4, err) : KILN_OK;
+    free(bytes);
+    return rc;
+}
+
 static int pread_all(int fd, void *buf, size_t len, uint64_t off, struct kiln_err *err)
 {
     char *p = buf;

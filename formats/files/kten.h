@@ -50,6 +50,10 @@ int kiln_kten_create(struct kiln_kten_writer *w, const char *path,
  * disjoint ranges. */
 int kiln_kten_write(struct kiln_kten_writer *w, size_t a, uint64_t off, const void *data,
                     size_t len, struct kiln_err *err);
+/* Writes n 32-bit values (u32, or i32 as their two's-complement bits) as array a's contents,
+ * little-endian whatever the host. */
+int kiln_kten_write_le32(struct kiln_kten_writer *w, size_t a, const uint32_t *values, size_t n,
+                         struct kiln_err *err);
 /* Reads back bytes of array a (e.g. to convert integer records to f32 in another file). */
 int kiln_kten_read(struct kiln_kten_writer *w, size_t a, uint64_t off, void *data, size_t len,
                    struct kiln_err *err);

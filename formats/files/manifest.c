@@ -1,4 +1,5 @@
-/* jansson-based stage files. */
+/* The one place kiln's JSON is written and read (jansson): manifest.json, catalog.json (the
+ * scan and split records), the .kten metadata block, and the recipe and statistics they hold. */
 #include "manifest.h"
 
 #include <archive.h>
@@ -12,6 +13,9 @@
 #include <zlib.h>
 
 #include "../../core/resize.h"
+#include "../../core/split.h"
+#include "../../core/textesc.h"
+#include "../../core/version.h"
 #include "../decoders/decoder.h"
 #include "outfile.h"
 #include "../sources/source.h"
@@ -250,4 +254,558 @@ json_t *kiln_library_versions_json(void)
     for (size_t i = 0; i < n; i++)
         json_object_set_new(j, v[i].library, json_string(v[i].version));
     return j;
+}
+
+/* ---- typed records ------------------------------------------------------------------------ */
+
+/* A name or other user text in its recorded form: escaped (core/textesc.h). */
+static json_t *text(const char *s)
+{
+    char *e = kiln_text_escape(s);
+    json_t *j = json_string(e ? e : "");
+    free(e);
+    return j;
+}
+
+static json_t *count(size_t n)
+{
+    return json_integer((json_int_t)n);
+}
+
+static json_t *string_or_null(const char *s)
+{
+    return s ? json_string(s) : json_null();
+}
+
+void kiln_scan_record_free(struct kiln_scan_record *r)
+{
+    if (!r)
+        return;
+    for (size_t i = 0; i < r->nsources; i++)
+        free(r->sources[i]);
+    free(r->sources);
+    free(r->labels_csv);
+    free(r->group_regex);
+    memset(r, 0, sizeof *r);
+}
+
+void kiln_split_record_free(struct kiln_split_record *r)
+{
+    if (!r)
+        return;
+    free(r->keep_manifest);
+    memset(r, 0, sizeof *r);
+}
+
+static json_t *scan_json(const struct kiln_scan_record *r)
+{
+    json_t *j = json_object(), *src = json_array(), *st = json_object();
+    for (size_t i = 0; i < r->nsources; i++)
+        json_array_append_new(src, json_string(r->sources[i]));
+    json_object_set_new(j, "kiln_version", json_string(r->kiln_version));
+    json_object_set_new(j, "sources", src);
+    json_object_set_new(j, "labels", json_string(r->labels));
+    json_object_set_new(j, "labels_csv", string_or_null(r->labels_csv));
+    json_object_set_new(j, "group_regex", string_or_null(r->group_regex));
+    json_object_set_new(j, "follow_links", json_boolean(r->follow_links));
+    json_object_set_new(j, "max_pixels", json_integer((json_int_t)r->max_pixels));
+    json_object_set_new(j, "max_side", json_integer(r->max_side));
+    json_object_set_new(j, "rows", count(r->rows));
+    for (int s = 0; s < KILN_ST_COUNT; s++)
+        if (r->status[s])
+            json_object_set_new(st, kiln_status_name(s), count(r->status[s]));
+    json_object_set_new(j, "status_counts", st);
+    json_object_set_new(j, "hidden_skipped", count(r->hidden));
+    json_object_set_new(j, "system_files_skipped", count(r->junk));
+    if (r->has_group_counts) {
+        json_object_set_new(j, "group_matched", count(r->group_matched));
+        json_object_set_new(j, "group_unmatched", count(r->group_unmatched));
+    }
+    if (r->has_csv_counts) {
+        json_object_set_new(j, "labels_csv_rows", count(r->csv_rows));
+        json_object_set_new(j, "labels_csv_rows_without_file", count(r->csv_rows_unused));
+    }
+    return j;
+}
+
+static json_t *split_json(const struct kiln_split_record *r)
+{
+    json_t *j = json_object();
+    char seed[32];
+    snprintf(seed, sizeof seed, "%llu", (unsigned long long)r->seed);
+    json_object_set_new(j, "algorithm", json_string(r->algorithm));
+    json_object_set_new(j, "seed", json_string(seed));
+    json_object_set_new(j, "ratios", json_string(r->ratios));
+    json_object_set_new(j, "parts", json_integer(r->parts));
+    json_object_set_new(j, "mode", json_string(r->mode));
+    json_object_set_new(j, "stratify", json_boolean(r->stratify));
+    json_object_set_new(j, "merge_near_duplicates",
+                        r->near_bits >= 0 ? json_integer(r->near_bits) : json_null());
+    if (r->keep) {
+        json_t *k = json_object();
+        json_object_set_new(k, "manifest", json_string(r->keep_manifest ? r->keep_manifest : ""));
+        json_object_set_new(k, "manifest_sha256", json_string(r->keep_sha256));
+        json_object_set_new(k, "conflicts", json_string(r->keep_to_test ? "test" : "error"));
+        json_object_set_new(k, "kept_units", count(r->kept_units));
+        json_object_set_new(k, "kept_items", count(r->kept_items));
+        json_object_set_new(k, "moved_items", count(r->moved_items));
+        json_object_set_new(j, "keep", k);
+    } else {
+        json_object_set_new(j, "keep", json_null());
+    }
+    json_object_set_new(j, "units", count(r->units));
+    json_object_set_new(j, "merged_by_group", count(r->merged_by_group));
+    json_object_set_new(j, "merged_by_bytes", count(r->merged_by_bytes));
+    json_object_set_new(j, "merged_by_pixels", count(r->merged_by_pixels));
+    json_object_set_new(j, "merged_by_near_duplicates", count(r->merged_by_near));
+    json_object_set_new(j, "mixed_label_units", count(r->mixed_units));
+    json_object_set_new(j, "oversized_units", count(r->oversized_units));
+    json_t *items = json_object();
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        if (s != KILN_SPLIT_VAL || r->parts == 3)
+            json_object_set_new(items, kiln_split_name(s), count(r->items[s]));
+    json_object_set_new(j, "items", items);
+    return j;
+}
+
+/* Findings listed by name; the rest are counted (findings_not_listed). */
+#define AUDIT_LISTED 100
+
+static json_t *audit_json(const struct kiln_audit *a, const struct kiln_catalog *cat)
+{
+    json_t *j = json_object(), *counts = json_object(), *missing = json_array();
+    json_object_set_new(j, "near_duplicate_bits",
+                        a->near_bits >= 0 ? json_integer(a->near_bits) : json_null());
+    json_object_set_new(j, "clean", json_boolean(a->nleaks == 0));
+    for (int k = 0; k < KILN_LEAK_KINDS; k++)
+        json_object_set_new(counts, kiln_leak_kind_name(k), count(a->per_kind[k]));
+    json_object_set_new(j, "spanning_splits", counts);
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        for (size_t c = 0; c < a->nclasses; c++)
+            if (a->missing[(size_t)s * a->nclasses + c]) {
+                json_t *m = json_object();
+                json_object_set_new(m, "split", json_string(kiln_split_name(s)));
+                json_object_set_new(m, "class", text(cat->classes[c]));
+                json_array_append_new(missing, m);
+            }
+    json_object_set_new(j, "classes_missing", missing);
+    json_t *list = json_array();
+    for (size_t l = 0; l < a->nleaks && l < AUDIT_LISTED; l++) {
+        json_t *f = json_object(), *items = json_array();
+        json_object_set_new(f, "kind", json_string(kiln_leak_kind_name(a->leaks[l].kind)));
+        for (size_t k = 0; k < a->leaks[l].count; k++) {
+            const struct kiln_item *it = &cat->items[a->items[a->leaks[l].first + k]];
+            char rel[4096];
+            kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+            json_t *o = json_object();
+            json_object_set_new(o, "name", text(rel));
+            json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));
+            json_array_append_new(items, o);
+        }
+        json_object_set_new(f, "items", items);
+        json_array_append_new(list, f);
+    }
+    json_object_set_new(j, "findings", list);
+    json_object_set_new(j, "findings_not_listed",
+                        count(a->nleaks > AUDIT_LISTED ? a->nleaks - AUDIT_LISTED : 0));
+    return j;
+}
+
+int kiln_manifest_save_catalog_record(const char *path, const struct kiln_catalog_record *r,
+                                      struct kiln_err *err)
+{
+    json_t *doc = json_object();
+    json_object_set_new(doc, "catalog", json_string(r->catalog));
+    json_object_set_new(doc, "scan", r->scan ? scan_json(r->scan) : json_null());
+    json_t *split = r->split ? split_json(r->split) : json_null();
+    if (r->split && r->audit)
+        json_object_set_new(split, "audit", audit_json(r->audit, r->audit_cat));
+    json_object_set_new(doc, "split", split);
+    int rc = kiln_json_save(path, doc, err);
+    json_decref(doc);
+    return rc;
+}
+
+/* ---- reading the records back ------------------------------------------------------------- */
+
+/* Reads a typed field of a record object; the first missing or mistyped field names itself. */
+struct reader {
+    const json_t *obj;
+    const char *what; /* "scan record" */
+    struct kiln_err *err;
+    int rc;
+};
+
+static const json_t *field(struct reader *r, const char *key, int type)
+{
+    const json_t *v = json_object_get(r->obj, key);
+    if (r->rc)
+        return NULL;
+    if (!v || json_typeof(v) != (json_type)type) {
+        r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s has no %s '%s'", r->what,
+                             type == JSON_STRING ? "text" : type == JSON_INTEGER ? "number"
+                             : type == JSON_ARRAY ? "list" : "object", key);
+        return NULL;
+    }
+    return v;
+}
+
+static size_t read_count(struct reader *r, const char *key)
+{
+    const json_t *v = field(r, key, JSON_INTEGER);
+    if (v && json_integer_value(v) < 0)
+        r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s has a negative '%s'", r->what, key);
+    return v && !r->rc ? (size_t)json_integer_value(v) : 0;
+}
+
+static bool read_bool(struct reader *r, const char *key)
+{
+    const json_t *v = json_object_get(r->obj, key);
+    if (!r->rc && !json_is_boolean(v))
+        r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s has no switch '%s'", r->what, key);
+    return json_is_true(v);
+}
+
+static void read_text(struct reader *r, const char *key, char *buf, size_t len)
+{
+    const json_t *v = field(r, key, JSON_STRING);
+    if (v && json_string_length(v) >= len)
+        r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s has a '%s' too long", r->what, key);
+    if (v && !r->rc)
+        memcpy(buf, json_string_value(v), json_string_length(v) + 1);
+}
+
+/* A string or null: *out is a malloc'ed copy, or NULL for null. */
+static void read_optional(struct reader *r, const char *key, char **out)
+{
+    const json_t *v = json_object_get(r->obj, key);
+    *out = NULL;
+    if (r->rc || json_is_null(v))
+        return;
+    if (!json_is_string(v)) {
+        r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s has no text or null '%s'", r->what,
+                             key);
+        return;
+    }
+    if (!(*out = strdup(json_string_value(v))))
+        r->rc = kiln_err_set(r->err, KILN_ENOMEM, "out of memory");
+}
+
+static void read_scan(struct reader *r, struct kiln_scan_record *s)
+{
+    read_text(r, "kiln_version", s->kiln_version, sizeof s->kiln_version);
+    const json_t *src = field(r, "sources", JSON_ARRAY);
+    if (src && !(s->sources = calloc(json_array_size(src) + 1, sizeof *s->sources)))
+        r->rc = kiln_err_set(r->err, KILN_ENOMEM, "out of memory");
+    for (size_t i = 0; !r->rc && src && i < json_array_size(src); i++) {
+        const char *v = json_string_value(json_array_get(src, i));
+        if (!v)
+            r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s lists a source that is not text",
+                                 r->what);
+        else if (!(s->sources[s->nsources++] = strdup(v)))
+            r->rc = kiln_err_set(r->err, KILN_ENOMEM, "out of memory");
+    }
+    read_text(r, "labels", s->labels, sizeof s->labels);
+    read_optional(r, "labels_csv", &s->labels_csv);
+    read_optional(r, "group_regex", &s->group_regex);
+    s->follow_links = read_bool(r, "follow_links");
+    s->max_pixels = read_count(r, "max_pixels");
+    s->max_side = (uint32_t)read_count(r, "max_side");
+    s->rows = read_count(r, "rows");
+    const json_t *st = field(r, "status_counts", JSON_OBJECT);
+    const char *name;
+    const json_t *v;
+    json_object_foreach((json_t *)st, name, v)
+    {
+        const int k = kiln_status_parse(name);
+        if (k < 0 || !json_is_integer(v) || json_integer_value(v) < 0) {
+            r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s counts an unknown status '%s'",
+                                 r->what, name);
+            break;
+        }
+        s->status[k] = (size_t)json_integer_value(v);
+    }
+    s->hidden = read_count(r, "hidden_skipped");
+    s->junk = read_count(r, "system_files_skipped");
+    if ((s->has_group_counts = json_object_get(r->obj, "group_matched") != NULL)) {
+        s->group_matched = read_count(r, "group_matched");
+        s->group_unmatched = read_count(r, "group_unmatched");
+    }
+    if ((s->has_csv_counts = json_object_get(r->obj, "labels_csv_rows") != NULL)) {
+        s->csv_rows = read_count(r, "labels_csv_rows");
+        s->csv_rows_unused = read_count(r, "labels_csv_rows_without_file");
+    }
+}
+
+static void read_keep(struct reader *r, struct kiln_split_record *s)
+{
+    const json_t *keep = json_object_get(r->obj, "keep");
+    if (r->rc || json_is_null(keep))
+        return;
+    struct reader k = {keep, "split record's keep", r->err, 0};
+    if (!json_is_object(keep))
+        k.rc = kiln_err_set(r->err, KILN_EINVAL, "the %s has no object or null 'keep'", r->what);
+    s->keep = true;
+    read_optional(&k, "manifest", &s->keep_manifest);
+    read_text(&k, "manifest_sha256", s->keep_sha256, sizeof s->keep_sha256);
+    char conflicts[8] = "";
+    read_text(&k, "conflicts", conflicts, sizeof conflicts);
+    s->keep_to_test = strcmp(conflicts, "test") == 0;
+    s->kept_units = read_count(&k, "kept_units");
+    s->kept_items = read_count(&k, "kept_items");
+    s->moved_items = read_count(&k, "moved_items");
+    r->rc = k.rc;
+}
+
+static void read_split(struct reader *r, struct kiln_split_record *s)
+{
+    read_text(r, "algorithm", s->algorithm, sizeof s->algorithm);
+    const json_t *seed = field(r, "seed", JSON_STRING);
+    char *end = NULL;
+    if (seed)
+        s->seed = strtoull(json_string_value(seed), &end, 10);
+    if (seed && (!json_string_value(seed)[0] || *end || json_string_value(seed)[0] == '-'))
+        r->rc = kiln_err_set(r->err, KILN_EINVAL, "bad recorded seed '%s'",
+                             json_string_value(seed));
+    read_text(r, "ratios", s->ratios, sizeof s->ratios);
+    s->parts = (unsigned)read_count(r, "parts");
+    read_text(r, "mode", s->mode, sizeof s->mode);
+    s->stratify = read_bool(r, "stratify");
+    const json_t *near = json_object_get(r->obj, "merge_near_duplicates");
+    s->near_bits = json_is_integer(near) ? (int)json_integer_value(near) : -1;
+    read_keep(r, s);
+    s->units = read_count(r, "units");
+    s->merged_by_group = read_count(r, "merged_by_group");
+    s->merged_by_bytes = read_count(r, "merged_by_bytes");
+    s->merged_by_pixels = read_count(r, "merged_by_pixels");
+    s->merged_by_near = read_count(r, "merged_by_near_duplicates");
+    s->mixed_units = read_count(r, "mixed_label_units");
+    s->oversized_units = read_count(r, "oversized_units");
+    struct reader items = {field(r, "items", JSON_OBJECT), "split record's items", r->err, r->rc};
+    for (int k = 0; k < KILN_NSPLITS && !items.rc; k++)
+        if (k != KILN_SPLIT_VAL || s->parts == 3)
+            s->items[k] = read_count(&items, kiln_split_name(k));
+    r->rc = items.rc;
+}
+
+int kiln_manifest_read_records(const json_t *doc, struct kiln_scan_record **scan,
+                               struct kiln_split_record **split, struct kiln_err *err)
+{
+    *scan = NULL;
+    *split = NULL;
+    const json_t *sj = json_object_get(doc, "scan"), *pj = json_object_get(doc, "split");
+    struct reader r = {sj, "scan record", err, 0};
+    if (sj && !json_is_null(sj)) {
+        if (!json_is_object(sj))
+            r.rc = kiln_err_set(err, KILN_EINVAL, "the scan record is not an object");
+        else if (!(*scan = calloc(1, sizeof **scan)))
+            r.rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+        else
+            read_scan(&r, *scan);
+    }
+    r.obj = pj;
+    r.what = "split record";
+    if (!r.rc && pj && !json_is_null(pj)) {
+        if (!json_is_object(pj))
+            r.rc = kiln_err_set(err, KILN_EINVAL, "the split record is not an object");
+        else if (!(*split = calloc(1, sizeof **split)))
+            r.rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+        else
+            read_split(&r, *split);
+    }
+    if (r.rc) {
+        kiln_scan_record_free(*scan);
+        kiln_split_record_free(*split);
+        free(*scan);
+        free(*split);
+        *scan = NULL;
+        *split = NULL;
+    }
+    return r.rc;
+}
+
+/* ---- manifest.json and the .kten metadata ------------------------------------------------- */
+
+static json_t *classes_json(const struct kiln_catalog *cat)
+{
+    json_t *a = json_array();
+    for (size_t c = 0; c < cat->nclasses; c++)
+        json_array_append_new(a, text(cat->classes[c]));
+    return a;
+}
+
+static json_t *class_counts(const struct kiln_catalog *cat, int split)
+{
+    json_t *per = json_object();
+    size_t *n = calloc(cat->nclasses + 1, sizeof *n);
+    if (!n)
+        return per;
+    for (size_t i = 0; i < cat->n; i++)
+        if (cat->items[i].split == split)
+            n[cat->items[i].class_index + 1]++;
+    for (size_t c = 0; c < cat->nclasses; c++)
+        json_object_set_new(per, cat->classes[c], count(n[c + 1]));
+    if (n[0])
+        json_object_set_new(per, "(unlabelled)", count(n[0]));
+    free(n);
+    return per;
+}
+
+/* The statistics object of split s (manifest "statistics", .kten "statistics"). */
+static json_t *split_stats(const struct kiln_manifest *m, int s, struct kiln_err *err)
+{
+    const bool deep = m->recipe->depth == 16;
+    json_t *ch = kiln_stats_to_json(&m->stats[s], deep ? 65535.0 : 255.0, err);
+    if (!ch)
+        return NULL;
+    json_t *st = json_object();
+    json_object_set_new(st, "used_for_normalisation", json_boolean(s == KILN_SPLIT_TRAIN));
+    json_object_set_new(st, "scale", json_string(deep ? "0-65535" : "0-255"));
+    json_object_set_new(st, "records", count(m->records[s]));
+    json_object_set_new(st, "channels", ch);
+    return st;
+}
+
+static json_t *skipped_json(const struct kiln_catalog *cat)
+{
+    json_t *a = json_array();
+    for (size_t i = 0; i < cat->n; i++) {
+        const struct kiln_item *it = &cat->items[i];
+        if (it->status == KILN_ST_OK)
+            continue;
+        json_t *o = json_object();
+        json_object_set_new(o, "source", text(it->source));
+        json_object_set_new(o, "path", text(it->path));
+        json_object_set_new(o, "member", text(it->member));
+        json_object_set_new(o, "status", json_string(kiln_status_name(it->status)));
+        json_object_set_new(o, "reason", text(it->reason));
+        json_array_append_new(a, o);
+    }
+    return a;
+}
+
+/* The manifest's middle: counts and statistics per present split. NULL after setting err. */
+static int add_splits(json_t *doc, const struct kiln_manifest *m, struct kiln_err *err)
+{
+    json_t *counts = json_object(), *stats = json_object();
+    json_object_set_new(doc, "counts", counts);
+    json_object_set_new(doc, "statistics", stats);
+    for (int s = 0; s < KILN_NSPLITS; s++) {
+        if (!m->present[s])
+            continue;
+        json_t *c = json_object(), *st = split_stats(m, s, err);
+        json_object_set_new(c, "records", count(m->records[s]));
+        json_object_set_new(c, "per_class", class_counts(m->cat, s));
+        json_object_set_new(counts, kiln_split_name(s), c);
+        if (!st)
+            return err->code;
+        json_object_set_new(stats, kiln_split_name(s), st);
+    }
+    return KILN_OK;
+}
+
+int kiln_manifest_save(const char *path, const struct kiln_manifest *m, struct kiln_err *err)
+{
+    json_t *doc = json_object();
+    json_object_set_new(doc, "manifest_version", json_integer(KILN_MANIFEST_VERSION));
+    json_object_set_new(doc, "kiln_version", json_string(KILN_VERSION));
+    json_object_set_new(doc, "libraries", kiln_library_versions_json());
+    json_object_set_new(doc, "recipe", kiln_recipe_to_json(m->recipe));
+    json_object_set_new(doc, "recipe_sha256", json_string(m->recipe_sha256));
+    json_object_set_new(doc, "scan", m->scan ? scan_json(m->scan) : json_null());
+    json_object_set_new(doc, "split", m->split ? split_json(m->split) : json_null());
+    json_object_set_new(doc, "classes", classes_json(m->cat));
+    int rc = add_splits(doc, m, err);
+    json_object_set_new(doc, "dct_reduced_items", count(m->dct_reduced));
+    json_object_set_new(doc, "audit", audit_json(m->audit, m->cat));
+    json_t *outputs = json_array();
+    for (size_t i = 0; i < m->noutputs; i++) {
+        json_t *o = json_object();
+        json_object_set_new(o, "name", json_string(m->outputs[i].name));
+        json_object_set_new(o, "bytes", json_integer((json_int_t)m->outputs[i].bytes));
+        json_object_set_new(o, "sha256", json_string(m->outputs[i].sha256));
+        json_array_append_new(outputs, o);
+    }
+    json_object_set_new(doc, "outputs", outputs);
+    json_object_set_new(doc, "skipped", skipped_json(m->cat));
+    if (!rc)
+        rc = kiln_json_save(path, doc, err);
+    json_decref(doc);
+    return rc;
+}
+
+char *kiln_manifest_kten_meta(const struct kiln_kten_meta *km, struct kiln_err *err)
+{
+    const struct kiln_manifest *m = km->m;
+    const struct kiln_recipe *r = m->recipe;
+    const int s = km->split;
+    json_t *meta = json_object();
+    json_object_set_new(meta, "format", json_string("kiln tensor file"));
+    json_object_set_new(meta, "split", json_string(kiln_split_name(s)));
+    json_object_set_new(meta, "records", count(m->records[s]));
+    json_object_set_new(meta, "layout", json_string(kiln_layout_name(r->layout)));
+    json_object_set_new(meta, "dtype", json_string(kiln_out_type_name(r->dtype)));
+    json_object_set_new(meta, "record_depth", json_integer(r->depth));
+    json_object_set_new(meta, "classes", classes_json(m->cat));
+    json_object_set_new(meta, "recipe_sha256", json_string(m->recipe_sha256));
+    json_t *st = split_stats(m, s, err);
+    json_t *train = st && s != KILN_SPLIT_TRAIN && m->present[KILN_SPLIT_TRAIN]
+                        ? split_stats(m, KILN_SPLIT_TRAIN, err)
+                        : NULL;
+    if (!st || (s != KILN_SPLIT_TRAIN && m->present[KILN_SPLIT_TRAIN] && !train)) {
+        json_decref(st);
+        json_decref(meta);
+        return NULL;
+    }
+    json_object_set_new(meta, "statistics", st);
+    if (train)
+        json_object_set_new(meta, "training_statistics", train);
+    if (km->mean_unit) {
+        json_t *norm = json_object(), *mean = json_array(), *sd = json_array();
+        for (unsigned c = 0; c < r->channels; c++) {
+            json_array_append_new(mean, json_real(km->mean_unit[c]));
+            json_array_append_new(sd, json_real(km->std_unit[c]));
+        }
+        json_object_set_new(norm, "mean_unit", mean);
+        json_object_set_new(norm, "std_unit", sd);
+        json_object_set_new(meta, "normalisation", norm);
+    }
+    char *out = kiln_json_dump(meta);
+    json_decref(meta);
+    if (!out)
+        kiln_err_set(err, KILN_ENOMEM, "cannot serialise metadata");
+    return out;
+}
+
+int kiln_manifest_recipe_sha256(const struct kiln_recipe *r, char hex[KILN_SHA256_HEX],
+                                struct kiln_err *err)
+{
+    json_t *j = kiln_recipe_to_json(r);
+    char *text = kiln_json_dump(j);
+    json_decref(j);
+    if (!text)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot serialise the recipe");
+    uint8_t d[KILN_SHA256_LEN];
+    int rc = kiln_sha256_buf(text, strlen(text), d, err);
+    free(text);
+    if (!rc)
+        kiln_sha256_hex(d, hex);
+    return rc;
+}
+
+int kiln_manifest_save_sums(const char *path, const struct kiln_manifest_output *out, size_t n,
+                            struct kiln_err *err)
+{
+    struct kiln_outfile of;
+    int rc = kiln_outfile_open(&of, path, err);
+    if (rc)
+        return rc;
+    FILE *f = kiln_outfile_stream(&of, err);
+    if (!f) {
+        kiln_outfile_abort(&of);
+        return KILN_EIO;
+    }
+    for (size_t i = 0; i < n; i++)
+        fprintf(f, "%s  %s\n", out[i].sha256, out[i].name);
+    return kiln_outfile_commit(&of, err);
 }
