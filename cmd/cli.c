@@ -96,7 +96,8 @@ int cli_exit_for(int code)
 
 int cli_exit_for_input(int code)
 {
-    return code == KILN_ENOMEM || code == KILN_EINTERNAL ? KILN_EXIT_FAILURE : KILN_EXIT_INPUT;
+    return code == KILN_ENOMEM || code == KILN_EINTERNAL || code == KILN_EWRITE ? KILN_EXIT_FAILURE
+                                                                               : KILN_EXIT_INPUT;
 }
 
 unsigned cli_default_jobs(void)

@@ -1,7 +1,10 @@
 /* kiln's entry point: the command table and the options that come before a command. */
 #include <errno.h>
+#include <signal.h>
 #include <string.h>
+#include <unistd.h>
 
+#include "../core/pipeline/interrupt.h"
 #include "../core/version.h"
 #include "../formats/files/manifest.h"
 #include "cmd.h"
@@ -24,8 +27,32 @@ static void usage(FILE *f)
                "version\nand the libraries in use.\n");
 }
 
+/* Runs on the signal thread (core/pipeline/interrupt.c) as the process ends: formatted into
+ * one buffer and written at once, so it is not mixed into other output. */
+static void on_interrupt(int sig, size_t files, uint64_t bytes)
+{
+    char msg[256];
+    int n = snprintf(msg, sizeof msg, "%skiln: error: interrupted by %s", isatty(2) ? "\n" : "",
+                     sig == SIGINT ? "SIGINT" : sig == SIGTERM ? "SIGTERM" : "SIGHUP");
+    if (files && n > 0 && (size_t)n < sizeof msg)
+        n += snprintf(msg + n, sizeof msg - (size_t)n,
+                      "; removed %zu temporary %s (%.1f MB, %llu bytes) of this run", files,
+                      files == 1 ? "file" : "files", (double)bytes / 1e6,
+                      (unsigned long long)bytes);
+    if (n > 0 && (size_t)n < sizeof msg - 1) {
+        msg[n++] = '\n';
+        ssize_t w = write(2, msg, (size_t)n);
+        (void)w;
+    }
+}
+
 int main(int argc, char **argv)
 {
+    struct kiln_err ierr;
+    if (kiln_interrupt_start(on_interrupt, &ierr) != 0) {
+        cli_error("%s", ierr.msg);
+        return KILN_EXIT_FAILURE;
+    }
     if (argc < 2) {
         usage(stderr);
         return KILN_EXIT_USAGE;

@@ -3,7 +3,7 @@
 #ifndef KILN_ERR_H
 #define KILN_ERR_H
 
-/* Values are pinned: docs/errors.md lists them and later versions only append. */
+/* Values are pinned: docs/statuses.md lists them and later versions only append. */
 enum kiln_code {
     KILN_OK = 0,
     KILN_EINVAL = 1,       /* bad argument, option value or malformed stage file */
@@ -14,7 +14,9 @@ enum kiln_code {
     KILN_EUNSUPPORTED = 6, /* input is well formed but uses a feature kiln does not handle */
     KILN_ETOOLARGE = 7,    /* input exceeds a configured limit (checked before allocating) */
     KILN_EMISMATCH = 8,    /* a checksum or recorded value does not match */
-    KILN_EINTERNAL = 9     /* a broken invariant: a bug in kiln */
+    KILN_EINTERNAL = 9,    /* a broken invariant: a bug in kiln */
+    KILN_EWRITE = 10       /* an output file could not be written (full disk, permissions, an
+                              interruption): the message names the output, never an input */
 };
 
 struct kiln_err {

@@ -95,8 +95,8 @@ static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln
         return rc;
     const uint64_t off = (uint64_t)run->record_of[j->item] * run->int_record;
     if (run->pool_fd >= 0)
-        return kiln_pwrite_all(run->pool_fd, w->record, run->int_record,
-                               (long long)(run->pool_base[s] + off), e);
+        return kiln_outfile_write_at(&run->pool, w->record, run->int_record,
+                                     run->pool_base[s] + off, e);
     return kiln_kten_write(&run->kten[s], 0, off, w->record, run->int_record, e);
 }
 

@@ -39,13 +39,13 @@ static int make_dirs(const char *path, struct kiln_err *err)
         if (mkdir(p, 0755) != 0 && errno != EEXIST) {
             int e = errno;
             free(p);
-            return kiln_err_sys(err, KILN_EIO, e, "cannot create folder %s", path);
+            return kiln_err_sys(err, KILN_EWRITE, e, "cannot create folder %s", path);
         }
         *s = '/';
     }
     int rc = KILN_OK;
     if (mkdir(p, 0755) != 0 && errno != EEXIST)
-        rc = kiln_err_sys(err, KILN_EIO, errno, "cannot create folder %s", path);
+        rc = kiln_err_sys(err, KILN_EWRITE, errno, "cannot create folder %s", path);
     free(p);
     return rc;
 }
@@ -93,7 +93,7 @@ static int sweep_debris(DIR *d, const char *dir, struct kiln_debris *debris, str
             continue;
         }
         if (unlinkat(fd, de->d_name, 0) != 0 && errno != ENOENT)
-            return kiln_err_sys(err, KILN_EIO, errno,
+            return kiln_err_sys(err, KILN_EWRITE, errno,
                                 "cannot remove %s/%s, left by an interrupted run", dir,
                                 de->d_name);
         debris->removed++;
@@ -119,7 +119,7 @@ int kiln_pipeline_prepare_outdir(const char *dir, struct kiln_debris *debris,
         return rc;
     DIR *d = opendir(dir);
     if (!d)
-        return kiln_err_sys(err, KILN_EIO, errno, "cannot open output folder %s", dir);
+        return kiln_err_sys(err, KILN_EWRITE, errno, "cannot open output folder %s", dir);
     bool has_manifest = false, foreign = false;
     char foreign_name[256] = "";
     struct dirent *de;
@@ -149,7 +149,7 @@ int kiln_pipeline_prepare_outdir(const char *dir, struct kiln_debris *debris,
         if (!p)
             return kiln_err_set(err, KILN_ENOMEM, "out of memory");
         if (unlink(p) != 0 && errno != ENOENT) {
-            rc = kiln_err_sys(err, KILN_EIO, errno, "cannot remove the old %s", p);
+            rc = kiln_err_sys(err, KILN_EWRITE, errno, "cannot remove the old %s", p);
             free(p);
             return rc;
         }

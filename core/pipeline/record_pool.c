@@ -41,8 +41,12 @@ int kiln_record_pool_put(struct kiln_record_pool *p, const void *record, uint32_
     if (s == KILN_NO_SLOT)
         return kiln_err_set(err, KILN_ETOOLARGE, "more than 2^32 - 1 records");
     *slot = s;
-    return kiln_pwrite_all(p->file.fd, record, p->record_bytes,
-                           (long long)((uint64_t)s * p->record_bytes), err);
+    int rc = kiln_outfile_write_at(&p->file, record, p->record_bytes,
+                                   (uint64_t)s * p->record_bytes, err);
+    /* The pool is build's scratch file: say what it is, since the user never named it. */
+    if (rc)
+        kiln_err_prefix(err, "cannot store a prepared record (build's temporary record pool)");
+    return rc;
 }
 
 int kiln_record_pool_get(struct kiln_record_pool *p, uint32_t slot, void *buf,

@@ -348,10 +348,12 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
                                              use_oriented};
         rc = kiln_prep_record(&w->prep, recipe, use_oriented ? &w->oriented : &w->img, &src,
                               w->record, &e);
-        if (!rc)
-            rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
         if (rc)
             return run_failure(w, j, rc, e.msg);
+        /* A full disk is a failure of the output, not of the file at hand: not named after it. */
+        rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
+        if (rc)
+            return kiln_err_set(&w->err, rc, "%s", e.msg);
     }
     return KILN_OK;
 }

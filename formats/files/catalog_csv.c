@@ -77,7 +77,7 @@ int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_
         kiln_csv_end_row(f);
     }
     if (ferror(f))
-        return kiln_err_sys(err, KILN_EIO, errno, "cannot write the catalogue");
+        return kiln_err_sys(err, KILN_EWRITE, errno, "cannot write the catalogue");
     return KILN_OK;
 }
 
@@ -90,13 +90,13 @@ int kiln_catalog_csv_save(const char *path, const struct kiln_catalog *cat, stru
     FILE *f = kiln_outfile_stream(&of, err);
     if (!f) {
         kiln_outfile_abort(&of);
-        return KILN_EIO;
+        return KILN_EWRITE;
     }
     rc = kiln_catalog_csv_write(f, cat, err);
     if (rc) {
-        kiln_err_prefix(err, "%s", path);
+        const int e = errno; /* the stream's failure, kept by kiln_catalog_csv_write */
         kiln_outfile_abort(&of);
-        return rc;
+        return kiln_err_sys(err, KILN_EWRITE, e, "cannot write %s", path);
     }
     return kiln_outfile_commit(&of, err);
 }

@@ -55,7 +55,7 @@ int kiln_items_csv_save(const char *path, const struct kiln_catalog *cat,
     FILE *f = kiln_outfile_stream(&of, err);
     if (!f) {
         kiln_outfile_abort(&of);
-        return KILN_EIO;
+        return KILN_EWRITE;
     }
     static const char *const cols[] = {"row",   "source", "path",  "member", "size",
                                        "sha256", "label", "class", "group",  "unit",
@@ -72,7 +72,7 @@ int kiln_items_csv_save(const char *path, const struct kiln_catalog *cat,
             write_row(f, &cat->items[i], row++, KILN_SPLIT_NONE, 0);
     if (ferror(f)) {
         kiln_outfile_abort(&of);
-        return kiln_err_sys(err, KILN_EIO, errno, "cannot write %s", path);
+        return kiln_err_sys(err, KILN_EWRITE, errno, "cannot write %s", path);
     }
     return kiln_outfile_commit(&of, err);
 }

@@ -101,10 +101,10 @@ int kiln_kten_create(struct kiln_kten_writer *w, const char *path,
     /* Reserve the whole data area now: a full disk fails here, not after hours of work. */
     int e = posix_fallocate(w->out.fd, 0, (off_t)off);
     if (e != 0 && e != EOPNOTSUPP && e != EINVAL) {
-        kiln_err_sys(err, KILN_EIO, e, "cannot reserve %llu bytes for %s",
+        kiln_err_sys(err, KILN_EWRITE, e, "cannot reserve %llu bytes for %s",
                      (unsigned long long)off, path);
         kiln_outfile_abort(&w->out);
-        return KILN_EIO;
+        return KILN_EWRITE;
     }
     return KILN_OK;
 }
@@ -115,7 +115,7 @@ int kiln_kten_write(struct kiln_kten_writer *w, size_t a, uint64_t off, const vo
     const struct kiln_kten_array *ar = &w->arrays[a];
     if (a >= w->narrays || off > ar->length || len > ar->length - off)
         return kiln_err_set(err, KILN_EINTERNAL, "write outside array %zu", a);
-    return kiln_pwrite_all(w->out.fd, data, len, (long long)(ar->offset + off), err);
+    return kiln_outfile_write_at(&w->out, data, len, ar->offset + off, err);
 }
 
 int kiln_kten_write_le32(struct kiln_kten_writer *w, size_t a, const uint32_t *values, size_t n,
@@ -231,16 +231,17 @@ int kiln_kten_finish(struct kiln_kten_writer *w, const char *metadata, size_t me
     if (!rc)
         rc = kiln_sha256_buf(metadata, metalen, msha, err);
     if (!rc)
-        rc = kiln_pwrite_all(w->out.fd, metadata, metalen, (long long)w->data_end, err);
+        rc = kiln_outfile_write_at(&w->out, metadata, metalen, w->data_end, err);
     if (!rc) {
         encode_header(buf, w->arrays, w->narrays, w->data_end, metalen, msha);
-        rc = kiln_pwrite_all(w->out.fd, buf, KILN_KTEN_HEADER, 0, err);
+        rc = kiln_outfile_write_at(&w->out, buf, KILN_KTEN_HEADER, 0, err);
     }
     free(buf);
     /* fallocate may have reserved past the metadata's end when it is shorter than the padding;
      * the file must end exactly where the header says. */
     if (!rc && ftruncate(w->out.fd, (off_t)(w->data_end + metalen)) != 0)
-        rc = kiln_err_sys(err, KILN_EIO, errno, "cannot set the size of the tensor file");
+        rc = kiln_err_sys(err, KILN_EWRITE, errno, "cannot set the size of %s",
+                          w->out.final_path);
     if (rc) {
         kiln_outfile_abort(&w->out);
         return rc;

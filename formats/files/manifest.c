@@ -39,9 +39,9 @@ int kiln_json_save(const char *path, const json_t *doc, struct kiln_err *err)
         return rc;
     }
     size_t len = strlen(text);
-    rc = kiln_pwrite_all(of.fd, text, len, 0, err);
+    rc = kiln_outfile_write_at(&of, text, len, 0, err);
     if (!rc)
-        rc = kiln_pwrite_all(of.fd, "\n", 1, (long long)len, err);
+        rc = kiln_outfile_write_at(&of, "\n", 1, len, err);
     free(text);
     if (rc) {
         kiln_outfile_abort(&of);
@@ -803,7 +803,7 @@ int kiln_manifest_save_sums(const char *path, const struct kiln_manifest_output 
     FILE *f = kiln_outfile_stream(&of, err);
     if (!f) {
         kiln_outfile_abort(&of);
-        return KILN_EIO;
+        return KILN_EWRITE;
     }
     for (size_t i = 0; i < n; i++)
         fprintf(f, "%s  %s\n", out[i].sha256, out[i].name);

@@ -9,52 +9,12 @@ demo_data "$work/data"
 expect_exit 0 "$KILN" scan "$work/data" -o "$work/c.csv" -q
 expect_exit 0 "$KILN" split "$work/c.csv" --seed 5 -q
 
-# kill_when_seen GLOB command...: starts the command, freezes it (SIGSTOP) as soon as a file
-# matching GLOB exists, checks it is still running, and kills it (SIGKILL). Returns 1 if the
-# command finished before it could be caught (the caller tries again).
-kill_when_seen() {
-    local glob=$1 pid f
-    shift
-    "$@" >/dev/null 2>&1 &
-    pid=$!
-    while kill -0 "$pid" 2>/dev/null; do
-        for f in $glob; do
-            if [ -e "$f" ] && kill -STOP "$pid" 2>/dev/null; then
-                kill -KILL "$pid"
-                { wait "$pid"; } 2>/dev/null || true # the shell's "Killed" note
-                return 0
-            fi
-        done
-        sleep 0.01
-    done
-    wait "$pid" || true
-    return 1
-}
-
-# sizes_of GLOB: "<count> <bytes>" of the regular files matching GLOB (stat, not kiln).
-sizes_of() {
-    local n=0 b=0 f
-    for f in $1; do
-        [ -f "$f" ] && [ ! -L "$f" ] || continue
-        n=$((n + 1))
-        b=$((b + $(stat -c %s "$f")))
-    done
-    echo "$n $b"
-}
-
 # 1. pack killed while writing: --size 256 makes ~38 MB of tensors, reserved up front, one
 # file after the other (train, val, test): once test's temporary file exists, the other two
 # are complete.
-caught=
-for try in 1 2 3; do
-    rm -rf "$work/out"
-    if kill_when_seen "$work/out/.test.kten.tmp-*" \
-        "$KILN" pack "$work/c.csv" -o "$work/out" --size 256 --filter lanczos3 --jobs 1; then
-        caught=1
-        break
-    fi
-done
-[ -n "$caught" ] || fail "pack finished three times before it could be killed"
+before_try() { rm -rf "$work/out"; }
+signal_when_seen KILL "$work/out/.test.kten.tmp-*" \
+    "$KILN" pack "$work/c.csv" -o "$work/out" --size 256 --filter lanczos3 --jobs 1
 [ ! -e "$work/out/manifest.json" ] || fail "a killed pack left a manifest"
 read -r n bytes < <(sizes_of "$work/out/.*.tmp-*")
 [ "$n" -ge 3 ] || fail "expected the killed pack's temporary files, found $n: $(ls -A "$work/out")"
@@ -82,16 +42,9 @@ expect_exit 0 "$KILN" pack "$work/c.csv" -o "$work/out" --size 16
 if grep -q "temporary" "$work/stderr"; then fail "a clean rerun reported debris: $(cat "$work/stderr")"; fi
 
 # 2. build killed during its scan, with the record pool open.
-caught=
-for try in 1 2 3; do
-    rm -rf "$work/b"
-    if kill_when_seen "$work/b/.records.pool.tmp-*" \
-        "$KILN" build "$work/data" -o "$work/b" --seed 5 --size 256 --jobs 1; then
-        caught=1
-        break
-    fi
-done
-[ -n "$caught" ] || fail "build finished three times before it could be killed"
+before_try() { rm -rf "$work/b"; }
+signal_when_seen KILL "$work/b/.records.pool.tmp-*" \
+    "$KILN" build "$work/data" -o "$work/b" --seed 5 --size 256 --jobs 1
 read -r n bytes < <(sizes_of "$work/b/.*.tmp-*")
 [ "$n" -ge 1 ] || fail "the killed build left no record pool: $(ls -A "$work/b")"
 expect_exit 0 "$KILN" build "$work/data" -o "$work/b" --seed 5 --size 16 -q

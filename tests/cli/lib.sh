@@ -100,3 +100,44 @@ kten_install() {
     *) fail "kten was imported from $got, not from the test's installation" ;;
     esac
 }
+
+# signal_when_seen SIG GLOB command...: starts the command in the background with SIGINT at its
+# default action (a script's background jobs ignore SIGINT otherwise), freezes it (SIGSTOP) as
+# soon as a file matching GLOB exists, calls `when_frozen PID` if the test defines it, sends
+# SIG, lets it go on (SIGCONT) and waits. Its exit status is left in $status, its standard
+# error in $work/stderr. A command that ends before it is caught is run again (`before_try` is
+# called before every try if defined), three times at most; then the test fails.
+signal_when_seen() {
+    local sig=$1 glob=$2 try pid f
+    shift 2
+    for try in 1 2 3; do
+        if declare -F before_try >/dev/null; then before_try; fi
+        env --default-signal=INT "$@" >/dev/null 2>"$work/stderr" &
+        pid=$!
+        while kill -0 "$pid" 2>/dev/null; do
+            for f in $glob; do
+                [ -e "$f" ] && kill -STOP "$pid" 2>/dev/null || continue
+                if declare -F when_frozen >/dev/null; then when_frozen "$pid"; fi
+                kill -"$sig" "$pid"
+                kill -CONT "$pid" 2>/dev/null || true # gone already after SIGKILL
+                status=0
+                { wait "$pid"; } 2>/dev/null || status=$? # without the shell's "Killed" note
+                return 0
+            done
+            sleep 0.01
+        done
+        wait "$pid" || true
+    done
+    fail "'$*' finished three times before it could be sent SIG$sig"
+}
+
+# sizes_of GLOB: "<count> <bytes>" of the regular files matching GLOB (stat, not kiln).
+sizes_of() {
+    local n=0 b=0 f
+    for f in $1; do
+        [ -f "$f" ] && [ ! -L "$f" ] || continue
+        n=$((n + 1))
+        b=$((b + $(stat -c %s "$f")))
+    done
+    echo "$n $b"
+}

@@ -7,10 +7,12 @@
 #include <stdint.h>
 #include <cmocka.h>
 
+#include <fcntl.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <sys/wait.h>
 #include <unistd.h>
 
 #include "../../core/sha256.h"
@@ -130,10 +132,86 @@ static void test_open_failure_names_the_file(void **state)
     snprintf(p, sizeof p, "%s/no-such-folder/catalog.csv", tmpdir);
     struct kiln_outfile of;
     struct kiln_err err = {0};
-    assert_int_equal(kiln_outfile_open(&of, p, &err), KILN_EIO);
+    assert_int_equal(kiln_outfile_open(&of, p, &err), KILN_EWRITE);
     assert_non_null(strstr(err.msg, p));
     assert_null(strstr(err.msg, ".tmp-"));
     assert_non_null(strstr(err.msg, "No such file or directory"));
+}
+
+/* A write that fails names the file the user asked for (here: to a descriptor that is not
+ * open for writing, which fails as a full disk would, EBADF instead of ENOSPC). */
+static void test_write_failure_names_the_file(void **state)
+{
+    (void)state;
+    char p[128];
+    snprintf(p, sizeof p, "%s/manifest.json", tmpdir);
+    struct kiln_outfile of;
+    struct kiln_err err = {0};
+    assert_int_equal(kiln_outfile_open(&of, p, &err), KILN_OK);
+    assert_int_equal(kiln_outfile_write_at(&of, "{}", 2, 0, &err), KILN_OK);
+    const int fd = of.fd;
+    of.fd = open("/dev/null", O_RDONLY);
+    assert_int_equal(kiln_outfile_write_at(&of, "{}", 2, 2, &err), KILN_EWRITE);
+    assert_non_null(strstr(err.msg, p));
+    assert_null(strstr(err.msg, ".tmp-"));
+    close(of.fd);
+    of.fd = fd;
+    assert_int_equal(kiln_outfile_commit(&of, &err), KILN_OK);
+    struct stat st;
+    assert_int_equal(stat(p, &st), 0);
+    assert_int_equal(st.st_size, 2);
+}
+
+/* Counts the entries of a folder other than . and .. */
+static int entries(const char *dir)
+{
+    char cmd[256];
+    snprintf(cmd, sizeof cmd, "ls -A '%s' | wc -l", dir);
+    FILE *f = popen(cmd, "r");
+    int n = -1;
+    if (f) {
+        if (fscanf(f, "%d", &n) != 1)
+            n = -1;
+        pclose(f);
+    }
+    return n;
+}
+
+/* kiln_outfile_remove_all (the interrupted run) removes exactly the temporary files that exist,
+ * counts them and their sizes, leaves committed outputs alone and refuses any new file or
+ * rename after it. It ends the process's use of output files, so it runs in a child. */
+static void test_remove_all(void **state)
+{
+    (void)state;
+    pid_t pid = fork();
+    assert_true(pid >= 0);
+    if (pid == 0) {
+        char a[128], b[128], c[128], d[128];
+        snprintf(a, sizeof a, "%s/train.kten", tmpdir);
+        snprintf(b, sizeof b, "%s/items.csv", tmpdir);
+        snprintf(c, sizeof c, "%s/catalog.csv", tmpdir);
+        snprintf(d, sizeof d, "%s/SHA256SUMS", tmpdir);
+        struct kiln_outfile oa, ob, oc, od;
+        struct kiln_err err = {0};
+        int bad = kiln_outfile_open(&oa, a, &err) || kiln_outfile_open(&ob, b, &err) ||
+                  kiln_outfile_open(&oc, c, &err) || kiln_outfile_open(&od, d, &err);
+        bad |= kiln_outfile_write_at(&oa, "0123456789", 10, 4096, &err) != KILN_OK;
+        bad |= kiln_outfile_write_at(&ob, "abc", 3, 0, &err) != KILN_OK;
+        bad |= kiln_outfile_commit(&oc, &err) != KILN_OK; /* a finished output stays */
+        kiln_outfile_abort(&od);                           /* an abandoned one is gone */
+        size_t files;
+        uint64_t bytes;
+        kiln_outfile_remove_all(&files, &bytes);
+        bad |= files != 2 || bytes != 4109 || entries(tmpdir) != 1 || access(c, F_OK) != 0;
+        struct kiln_outfile oe;
+        bad |= kiln_outfile_open(&oe, d, &err) != KILN_EWRITE || !strstr(err.msg, d);
+        bad |= kiln_outfile_commit(&oa, &err) != KILN_EWRITE || access(a, F_OK) == 0;
+        _exit(bad ? 1 : 0);
+    }
+    int status;
+    assert_int_equal(waitpid(pid, &status, 0), pid);
+    assert_true(WIFEXITED(status));
+    assert_int_equal(WEXITSTATUS(status), 0);
 }
 
 int main(void)
@@ -143,6 +221,8 @@ int main(void)
         cmocka_unit_test_setup_teardown(test_file_sha256_failures, setup, teardown),
         cmocka_unit_test_setup_teardown(test_temp_names, setup, teardown),
         cmocka_unit_test_setup_teardown(test_open_failure_names_the_file, setup, teardown),
+        cmocka_unit_test_setup_teardown(test_write_failure_names_the_file, setup, teardown),
+        cmocka_unit_test_setup_teardown(test_remove_all, setup, teardown),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
