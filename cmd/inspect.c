@@ -1,6 +1,7 @@
 /* kiln inspect: print a .kten file's header, arrays, class map and statistics. */
 #include <inttypes.h>
 #include <jansson.h>
+#include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
 
@@ -38,14 +39,41 @@ const struct cli_command cli_inspect = {
     .main = cmd_inspect,
 };
 
+/* Prints a string from the metadata for a terminal: control characters (C0, DEL and the C1
+ * range, which terminals read as commands) as \xNN or \u00NN and a backslash as \\, so no file
+ * can move the cursor or retitle the window. A value that is missing or not a string says so. */
+static void put_text(const json_t *v)
+{
+    if (!json_is_string(v)) {
+        char *text = v ? json_dumps(v, JSON_ENCODE_ANY | JSON_COMPACT) : NULL;
+        printf("(%s%.40s)", v ? "not a string: " : "missing", text ? text : "");
+        free(text);
+        return;
+    }
+    const unsigned char *p = (const unsigned char *)json_string_value(v);
+    const size_t n = json_string_length(v);
+    for (size_t i = 0; i < n; i++) {
+        if (p[i] < 0x20 || p[i] == 0x7f)
+            printf("\\x%02x", p[i]);
+        else if (p[i] == '\\')
+            fputs("\\\\", stdout);
+        else if (p[i] == 0xc2 && i + 1 < n && p[i + 1] >= 0x80 && p[i + 1] <= 0x9f)
+            printf("\\u%04x", p[++i]);
+        else
+            putchar(p[i]);
+    }
+}
+
 static void print_stats(const json_t *st, const char *title)
 {
     const json_t *ch = json_object_get(st, "channels");
     if (!json_is_array(ch))
         return;
-    printf("%s (%s, %s):\n", title, kiln_json_str(st, "scale") ? kiln_json_str(st, "scale") : "?",
-           json_is_true(json_object_get(st, "used_for_normalisation")) ? "used for normalisation"
-                                                                        : "not used");
+    printf("%s (", title);
+    put_text(json_object_get(st, "scale"));
+    printf(", %s):\n", json_is_true(json_object_get(st, "used_for_normalisation"))
+                           ? "used for normalisation"
+                           : "not used");
     size_t i;
     const json_t *c;
     json_array_foreach(ch, i, c)
@@ -109,17 +137,20 @@ static int inspect(const char *path, bool as_json, bool quiet)
         printf("metadata: %" PRIu64 " bytes at %" PRIu64 ", sha256 %s\n", info.meta_length,
                info.meta_offset, hex);
         if (meta) {
-            printf("split %s, layout %s, dtype %s, recipe %s\n",
-                   kiln_json_str(meta, "split") ? kiln_json_str(meta, "split") : "?",
-                   kiln_json_str(meta, "layout") ? kiln_json_str(meta, "layout") : "?",
-                   kiln_json_str(meta, "dtype") ? kiln_json_str(meta, "dtype") : "?",
-                   kiln_json_str(meta, "recipe_sha256") ? kiln_json_str(meta, "recipe_sha256")
-                                                        : "?");
+            static const char *const keys[] = {"split", "layout", "dtype", "recipe"};
+            for (size_t k = 0; k < 4; k++) {
+                printf("%s%s ", k ? ", " : "", keys[k]);
+                put_text(json_object_get(meta, k == 3 ? "recipe_sha256" : keys[k]));
+            }
             const json_t *classes = json_object_get(meta, "classes");
             size_t i;
             const json_t *v;
-            printf("classes:");
-            json_array_foreach(classes, i, v) printf(" %zu=%s", i, json_string_value(v));
+            printf("\nclasses:");
+            json_array_foreach(classes, i, v)
+            {
+                printf(" %zu=", i);
+                put_text(v);
+            }
             printf("\n");
             print_stats(json_object_get(meta, "statistics"), "statistics of this split");
             if (json_object_get(meta, "training_statistics"))

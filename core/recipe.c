@@ -198,9 +198,16 @@ int kiln_recipe_finish(struct kiln_recipe *r, struct kiln_err *err)
         if (r->depth == 8)
             r->depth = 16; /* u16 output implies 16-bit records */
     }
-    if (!kiln_recipe_record_bytes(r))
-        return kiln_err_set(err, KILN_EINVAL, "record size %ux%ux%u overflows", r->width,
-                            r->height, r->channels);
+    const size_t bytes = kiln_recipe_record_bytes(r);
+    if (!bytes || bytes > KILN_MAX_RECORD_BYTES)
+        return kiln_err_set(err, KILN_EINVAL,
+                            "--size %ux%u gives records of %ux%ux%u %s samples, %.1f MB each, "
+                            "more than the limit of %zu MiB a record",
+                            r->width, r->height, r->width, r->height, r->channels,
+                            kiln_out_type_name(r->dtype),
+                            (double)r->width * r->height * r->channels *
+                                (r->dtype == KILN_OUT_F32 ? 4 : r->depth / 8) / 1e6,
+                            KILN_MAX_RECORD_BYTES >> 20);
     return KILN_OK;
 }
 

@@ -32,6 +32,10 @@ struct kiln_recipe {
 
 #define KILN_DEFAULT_MAX_PIXELS (1ull << 28)
 #define KILN_DEFAULT_MAX_SIDE 65535u
+/* The largest output record (one image, in bytes, of the output type): 256 MiB, e.g. 8192x8192
+ * RGBA f32. Each worker holds a record and the resampler's buffers of about the same size, so
+ * this bounds memory per worker; the tensor files' total is checked against free space. */
+#define KILN_MAX_RECORD_BYTES ((size_t)256 << 20)
 
 void kiln_recipe_defaults(struct kiln_recipe *r);
 
@@ -42,7 +46,8 @@ void kiln_recipe_defaults(struct kiln_recipe *r);
 int kiln_recipe_set(struct kiln_recipe *r, const char *key, const char *value,
                     struct kiln_err *err);
 
-/* Checks the combination and fills derived values (dtype from depth). Call after all sets. */
+/* Checks the combination and fills derived values (dtype from depth). Call after all sets.
+ * A record larger than KILN_MAX_RECORD_BYTES is refused (KILN_EINVAL). */
 int kiln_recipe_finish(struct kiln_recipe *r, struct kiln_err *err);
 
 const char *kiln_out_type_name(int t);

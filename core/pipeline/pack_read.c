@@ -1,6 +1,8 @@
 /* Pack's reader: fetches the bytes of every packed item into the work queue, in the order of
  * where they are read (plain files one by one, each archive in one streaming pass). Items are
  * read from their from_* location when reproduce set one. */
+#include <sys/stat.h>
+#include <inttypes.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -151,10 +153,20 @@ static int read_plain(struct pack_run *run, uint32_t i, struct kiln_err *e)
     uint8_t *data;
     size_t size;
     struct kiln_err re;
-    int rc = kiln_source_read_file(p, 4ull << 30, &data, &size, &re);
+    /* The recorded size bounds what is read: a file that grew has changed, whatever it holds.
+     * Something other than a file where one was (a FIFO would block the read) has changed too. */
+    struct stat st;
+    int rc = stat(p, &st) == 0 && !S_ISREG(st.st_mode)
+                 ? kiln_err_set(&re, KILN_EIO, "it is no longer a regular file")
+                 : kiln_source_read_file(p, it->size ? it->size : 1, &data, &size, &re);
     free(p);
     if (rc) {
         char name[2048];
+        if (rc == KILN_ETOOLARGE)
+            return kiln_err_set(e, KILN_EMISMATCH,
+                                "%s changed since it was scanned (it is larger than the %" PRIu64
+                                " bytes recorded); scan again",
+                                kiln_pack_item_name(it, name, sizeof name), it->size);
         return kiln_err_set(e, KILN_EMISMATCH, "cannot read %s since it was scanned: %s",
                             kiln_pack_item_name(it, name, sizeof name), re.msg);
     }
@@ -193,7 +205,10 @@ void *kiln_pack_read(void *arg)
             break;
         }
         struct archive_fetch f = {run, fetch, k, j};
-        struct kiln_walk_opts wo = {false, 4ull << 30};
+        struct kiln_walk_opts wo = {false, 1};
+        for (size_t q = k; q < j; q++) /* members larger than recorded have changed */
+            if (cat->items[fetch[q]].size > wo.max_file_bytes)
+                wo.max_file_bytes = cat->items[fetch[q]].size;
         rc = kiln_archive_walk(p, fetch_source(it), fetch_path(it), &wo, want_member, got_member,
                                &f, NULL, &e);
         free(p);

@@ -58,14 +58,23 @@ static int cmp_entry(const void *a, const void *b)
     return c;
 }
 
+uint64_t kiln_index_max_bytes(const struct kiln_catalog *cat)
+{
+    uint64_t m = 1;
+    for (size_t i = 0; i < cat->n; i++)
+        if (cat->items[i].size > m)
+            m = cat->items[i].size;
+    return m;
+}
+
 int kiln_index_build(const char *const *sources, size_t nsources, bool follow_links,
-                     struct kiln_index *idx, struct kiln_err *err)
+                     uint64_t max_bytes, struct kiln_index *idx, struct kiln_err *err)
 {
     memset(idx, 0, sizeof *idx);
     kiln_arena_init(&idx->strings);
     struct index_walk w = {idx, {NULL}};
     int rc = kiln_sha256_init(&w.ctx, err);
-    const struct kiln_walk_opts opts = {follow_links, 4ull << 30};
+    const struct kiln_walk_opts opts = {follow_links, max_bytes ? max_bytes : 1};
     for (size_t i = 0; i < nsources && !rc; i++)
         rc = kiln_source_walk(sources[i], &opts, NULL, add_entry, &w, NULL, err);
     if (w.ctx.evp)

@@ -26,10 +26,14 @@ struct kiln_index {
 };
 
 /* Walks every source (folders and archives, hidden and system files skipped as by scan) and
- * hashes every regular file. Only errors of the run are returned; unreadable files are
- * counted. */
+ * hashes every regular file of at most max_bytes (files larger than every recorded item cannot
+ * hold one, and are not read: that bounds memory by the largest item). Only errors of the run
+ * are returned; unreadable and skipped files are counted. */
 int kiln_index_build(const char *const *sources, size_t nsources, bool follow_links,
-                     struct kiln_index *idx, struct kiln_err *err);
+                     uint64_t max_bytes, struct kiln_index *idx, struct kiln_err *err);
+/* The largest recorded size of a catalogue's items (at least 1): the max_bytes to index for. */
+struct kiln_catalog;
+uint64_t kiln_index_max_bytes(const struct kiln_catalog *cat);
 void kiln_index_free(struct kiln_index *idx);
 
 /* The first entry with this digest (in location order), or NULL. */

@@ -3,6 +3,9 @@
  * pack_finish.c (everything that follows from them). */
 #include "stage_pack.h"
 
+#include <inttypes.h>
+#include <sys/statvfs.h>
+
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -129,8 +132,46 @@ static int open_scratch(struct pack_run *run, struct kiln_err *err)
     return KILN_OK;
 }
 
+/* The tensor files (and for f32 the integer records kept beside them) are reserved whole: check
+ * before reserving anything that the output folder's file system has room for all of it, so a
+ * run that cannot fit says so at once and in those terms. */
+static int check_room(const struct pack_run *run, struct kiln_err *err)
+{
+    const struct kiln_recipe *r = &run->o->recipe;
+    uint64_t need = 0;
+    for (int s = 0; s < KILN_NSPLITS; s++) {
+        if (!split_wanted(run, s))
+            continue;
+        struct kiln_kten_array arrays[3];
+        split_arrays(run, s, arrays);
+        uint64_t bytes, pool = 0;
+        int rc = kiln_kten_plan_bytes(arrays, 3, &bytes, err);
+        if (rc)
+            return rc;
+        if (r->dtype == KILN_OUT_F32 && !run->o->pool &&
+            !kiln_mul_u64(run->rep->records[s], run->int_record, &pool))
+            return kiln_err_set(err, KILN_ENOMEM, "the record pool would exceed 2^64 bytes");
+        if (need > UINT64_MAX - bytes - pool)
+            return kiln_err_set(err, KILN_ENOMEM, "the outputs would exceed 2^64 bytes");
+        need += bytes + pool;
+    }
+    struct statvfs fs;
+    if (statvfs(run->o->outdir, &fs) != 0 || fs.f_blocks == 0)
+        return KILN_OK; /* no figures to go by (some network file systems): let the writes tell */
+    const uint64_t avail = (uint64_t)fs.f_bavail * fs.f_frsize;
+    if (need > avail)
+        return kiln_err_set(err, KILN_EWRITE,
+                            "cannot write the tensor files into %s: they need %.1f MB (%" PRIu64
+                            " bytes) and its file system has %.1f MB free",
+                            run->o->outdir, (double)need / 1e6, need, (double)avail / 1e6);
+    return KILN_OK;
+}
+
 static int open_outputs(struct pack_run *run, struct kiln_err *err)
 {
+    int rc = check_room(run, err);
+    if (rc)
+        return rc;
     for (int s = 0; s < KILN_NSPLITS; s++) {
         if (!split_wanted(run, s))
             continue;
@@ -139,7 +180,7 @@ static int open_outputs(struct pack_run *run, struct kiln_err *err)
         char *p = kiln_pipeline_path(run->o->outdir, kiln_manifest_split_files[s]);
         if (!p)
             return kiln_err_set(err, KILN_ENOMEM, "out of memory");
-        int rc = kiln_kten_create(&run->kten[s], p, arrays, 3, err);
+        rc = kiln_kten_create(&run->kten[s], p, arrays, 3, err);
         free(p);
         if (rc)
             return rc;
@@ -166,8 +207,34 @@ static void abort_outputs(struct pack_run *run)
 
 /* ---- the stage ---------------------------------------------------------------------------- */
 
-/* Checks that need no resources: every row with a split is usable, and some row has one. */
-static int check_catalogue(const struct kiln_catalog *cat, struct kiln_pack_report *rep,
+/* The split record's parts decide which files are written (a two-way split has no val.kten);
+ * a record edited or mixed up with another catalogue's must agree with the rows. */
+static int check_parts(const struct kiln_catalog *cat, const struct kiln_split_record *split,
+                       struct kiln_err *err)
+{
+    if (!split)
+        return KILN_OK;
+    if (split->parts != 2 && split->parts != 3)
+        return kiln_err_set(err, KILN_EINVAL,
+                            "the catalogue's split record says the split has %u parts; a split "
+                            "has 2 (train:test) or 3 (train:val:test)",
+                            split->parts);
+    for (size_t i = 0; split->parts == 2 && i < cat->n; i++)
+        if (cat->items[i].split == KILN_SPLIT_VAL) {
+            char name[2048];
+            kiln_catalog_item_name(&cat->items[i], name, sizeof name);
+            return kiln_err_set(err, KILN_EINVAL,
+                                "catalogue row %zu (%s) is in val, but the catalogue's split "
+                                "record says the split has 2 parts (train:test); split again",
+                                i + 1, name);
+        }
+    return KILN_OK;
+}
+
+/* Checks that need no resources: every row with a split is usable, some row has one, and the
+ * split record agrees with the rows. */
+static int check_catalogue(const struct kiln_catalog *cat,
+                           const struct kiln_split_record *split, struct kiln_pack_report *rep,
                            size_t *packed, struct kiln_err *err)
 {
     *packed = 0;
@@ -183,7 +250,7 @@ static int check_catalogue(const struct kiln_catalog *cat, struct kiln_pack_repo
         return kiln_err_set(err, KILN_EINVAL,
                             "no catalogue row has a split (run kiln split first, or no file was "
                             "usable)");
-    return KILN_OK;
+    return check_parts(cat, split, err);
 }
 
 static int plan(struct pack_run *run, struct kiln_err *err)
@@ -205,7 +272,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     memset(rep, 0, sizeof *rep);
     const struct kiln_recipe *r = &o->recipe;
     size_t packed;
-    int rc = check_catalogue(cat, rep, &packed, err);
+    int rc = check_catalogue(cat, o->split, rep, &packed, err);
     if (rc)
         return rc;
     struct pack_run run;

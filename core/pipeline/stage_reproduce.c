@@ -197,7 +197,8 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
         goto out;
     compare_libraries(m, fn, ctx, rep);
     kiln_arena_free(&idx.strings);
-    rc = kiln_index_build(o->sources, o->nsources, false, &idx, err);
+    rc = kiln_index_build(o->sources, o->nsources, false, kiln_index_max_bytes(&cat), &idx,
+                          err);
     if (!rc && !(moved = kiln_alloc_array(cat.n ? cat.n : 1, sizeof *moved)))
         rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
     if (rc)

@@ -259,7 +259,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
     free(mpath);
     struct kiln_index idx;
     if (!rc)
-        rc = kiln_index_build(sources, nsources, false, &idx, err);
+        rc = kiln_index_build(sources, nsources, false, kiln_index_max_bytes(&cat), &idx, err);
     if (rc) {
         kiln_catalog_free(&cat);
         return rc;

@@ -73,29 +73,49 @@ static int array_length(const struct kiln_kten_array *a, uint64_t *len)
     return 0;
 }
 
+/* Lays the arrays out (lengths and offsets into out, which may be NULL) and gives the end of
+ * the data, where the metadata block starts. */
+static int plan_layout(const struct kiln_kten_array *arrays, size_t narrays,
+                       struct kiln_kten_array *out, uint64_t *data_end, struct kiln_err *err)
+{
+    if (narrays > KILN_KTEN_MAX_ARRAYS)
+        return kiln_err_set(err, KILN_EINVAL, "too many arrays (%zu) for a .kten file", narrays);
+    uint64_t off = KILN_KTEN_HEADER;
+    for (size_t i = 0; i < narrays; i++) {
+        struct kiln_kten_array a = arrays[i];
+        if (strlen(a.name) > KILN_KTEN_NAME || array_length(&a, &a.length) != 0)
+            return kiln_err_set(err, KILN_ENOMEM, "array '%s' is too large or malformed",
+                                a.name);
+        a.offset = off;
+        if (off > UINT64_MAX - a.length || align_up(off + a.length, &off) != 0)
+            return kiln_err_set(err, KILN_ENOMEM, "tensor file would exceed 2^64 bytes");
+        if (out)
+            out[i] = a;
+    }
+    if (off > (uint64_t)INT64_MAX)
+        return kiln_err_set(err, KILN_ENOMEM, "tensor file would exceed the file size limit");
+    *data_end = off;
+    return KILN_OK;
+}
+
+int kiln_kten_plan_bytes(const struct kiln_kten_array *arrays, size_t narrays, uint64_t *bytes,
+                         struct kiln_err *err)
+{
+    return plan_layout(arrays, narrays, NULL, bytes, err);
+}
+
 int kiln_kten_create(struct kiln_kten_writer *w, const char *path,
                      const struct kiln_kten_array *arrays, size_t narrays, struct kiln_err *err)
 {
     memset(w, 0, sizeof *w);
     w->out.fd = -1;
-    if (narrays > KILN_KTEN_MAX_ARRAYS)
-        return kiln_err_set(err, KILN_EINVAL, "too many arrays (%zu) for a .kten file", narrays);
-    uint64_t off = KILN_KTEN_HEADER;
-    for (size_t i = 0; i < narrays; i++) {
-        struct kiln_kten_array *a = &w->arrays[i];
-        *a = arrays[i];
-        if (strlen(a->name) > KILN_KTEN_NAME || array_length(a, &a->length) != 0)
-            return kiln_err_set(err, KILN_ENOMEM, "array '%s' is too large or malformed",
-                                a->name);
-        a->offset = off;
-        if (off > UINT64_MAX - a->length || align_up(off + a->length, &off) != 0)
-            return kiln_err_set(err, KILN_ENOMEM, "tensor file would exceed 2^64 bytes");
-    }
+    uint64_t off;
+    int rc = plan_layout(arrays, narrays, w->arrays, &off, err);
+    if (rc)
+        return rc;
     w->narrays = narrays;
     w->data_end = off;
-    if (off > (uint64_t)INT64_MAX)
-        return kiln_err_set(err, KILN_ENOMEM, "tensor file would exceed the file size limit");
-    int rc = kiln_outfile_open(&w->out, path, err);
+    rc = kiln_outfile_open(&w->out, path, err);
     if (rc)
         return rc;
     /* Reserve the whole data area now: a full disk fails here, not after hours of work. */

@@ -42,6 +42,10 @@ struct kiln_kten_writer {
     uint64_t data_end; /* where the metadata block starts */
 };
 
+/* The bytes a file of these arrays reserves when it is created (the metadata block comes on
+ * top, at the end: a few KB). */
+int kiln_kten_plan_bytes(const struct kiln_kten_array *arrays, size_t narrays, uint64_t *bytes,
+                         struct kiln_err *err);
 /* Plans the layout for arrays (name, dtype, rank, dims set; offsets filled here) and creates
  * the file under a temporary name. Every length is overflow-checked. */
 int kiln_kten_create(struct kiln_kten_writer *w, const char *path,

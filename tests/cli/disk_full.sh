@@ -77,22 +77,29 @@ catalog=$(pages "$r/catalog.csv")
 manifest=$(pages "$r/manifest.json")
 rm -rf "$r"
 # free pages, then the file whose writing must fail, as the message names it
-for case in "0 train.kten" \
-    "$tensors items.csv" \
+# (no room for the tensor files at all: section 3)
+for case in "$tensors items.csv" \
     "$((tensors + items)) catalog.csv" \
     "$((tensors + items + catalog)) manifest.json" \
     "$((tensors + items + catalog + manifest)) SHA256SUMS"; do
     read -r free file <<<"$case"
     leave_free "$free"
     expect_exit 1 "$KILN" pack "$work/c.csv" -o "$disk/out" --size 64 -q
-    grep -Eq "cannot (write|reserve [0-9]+ bytes for) $disk/out/$file: No space left on device" \
+    grep -q "cannot write $disk/out/$file: No space left on device" \
         "$work/stderr" || fail "with $free pages free, expected $file to be named: $(cat "$work/stderr")"
     not_blamed
     no_debris "$disk/out"
     rm -rf "$disk/out"
 done
 
-# 3. Room again: the same runs succeed and verify.
+# 3. Tensor files that cannot fit are refused before anything is reserved, in those terms.
+rm -f "$disk/filler"
+expect_exit 1 "$KILN" pack "$work/c.csv" -o "$disk/big" --size 1024 -q
+grep -Eq "cannot write the tensor files into $disk/big: they need [0-9.]+ MB \([0-9]+ bytes\) and its file system has [0-9.]+ MB free" \
+    "$work/stderr" || fail "outputs larger than the free space: $(cat "$work/stderr")"
+[ -z "$(ls -A "$disk/big")" ] || fail "a pack that cannot fit wrote: $(ls -A "$disk/big")"
+
+# 4. Room again: the same runs succeed and verify.
 rm -f "$disk/filler"
 expect_exit 0 "$KILN" pack "$work/c.csv" -o "$disk/out" --size 64 -q
 expect_exit 0 "$KILN" verify "$disk/out"

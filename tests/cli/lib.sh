@@ -141,3 +141,18 @@ sizes_of() {
     done
     echo "$n $b"
 }
+
+# peak_rss command...: runs the command (stdout and stderr into $work/stdout and $work/stderr)
+# and sets $rss_kib to its peak resident set size in KiB (getrusage of the child) and $status
+# to its exit status.
+peak_rss() {
+    local out
+    status=0
+    out=$("$PYTHON" -c '
+import resource, subprocess, sys
+with open(sys.argv[1], "wb") as o, open(sys.argv[2], "wb") as e:
+    r = subprocess.run(sys.argv[3:], stdout=o, stderr=e)
+print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss, r.returncode)
+' "$work/stdout" "$work/stderr" "$@") || fail "could not run $*"
+    read -r rss_kib status <<<"$out"
+}
