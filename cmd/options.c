@@ -382,6 +382,28 @@ static int set_follow_links(struct cli_args *a, const struct cli_opt *o, const c
     return 0;
 }
 
+/* A size in bytes: digits with an optional binary suffix (K, M, G or T; KiB ... also taken). */
+static int set_max_file_size(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    char *end;
+    errno = 0;
+    unsigned long long n = strtoull(v, &end, 10);
+    int shift = 0;
+    if (*end) {
+        static const char units[] = "KMGT";
+        const char *u = strchr(units, *end);
+        if (u && *u && (!end[1] || strcmp(end + 1, "iB") == 0))
+            shift = 10 * (int)(u - units + 1);
+        else
+            shift = -1;
+    }
+    if (end == v || v[0] == '-' || errno || shift < 0 || n == 0 || n > (1ull << 62) >> shift)
+        return cli_bad_value(o, v, "use a number of bytes from 1, with K, M, G or T for KiB, MiB, "
+                                   "GiB or TiB (e.g. 2G)");
+    a->scan->walk.max_file_bytes = (uint64_t)n << shift;
+    return 0;
+}
+
 const struct cli_opt cli_scan_group[] = {
     {"labels", 0, CLI_VALUE, "RULE",
      "folder (default: first folder level), none, or csv:FILE with\n"
@@ -393,6 +415,10 @@ const struct cli_opt cli_scan_group[] = {
      set_group_regex},
     {"follow-links", 0, CLI_SWITCH, NULL, "follow symbolic links (loops are detected and reported)",
      set_follow_links},
+    {"max-file-size", 0, CLI_VALUE, "SIZE",
+     "a file or archive member larger than SIZE is too-large,\n"
+     "never read (default 1G; K, M, G, T: binary units)",
+     set_max_file_size},
     CLI_OPT_END,
 };
 

@@ -6,12 +6,23 @@
 #include "../core/pipeline/stage_catalog.h"
 #include "cmd.h"
 
+static int set_allow_outside_paths(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    (void)o, (void)v;
+    ((struct kiln_pack_opts *)a->own)->allow_outside_paths = true;
+    return 0;
+}
+
 static const struct cli_opt opts[] = {
     CLI_HEADING("options:"),
     {"output", 'o', CLI_VALUE, "DIR", "output folder (created; must be empty or a kiln output)",
      cli_set_output, "-o OUTDIR is required"},
     CLI_INCLUDE(cli_recipe_group),
     CLI_INCLUDE(cli_limit_group),
+    {"allow-outside-paths", 0, CLI_SWITCH, NULL,
+     "read catalogue rows whose path leaves its source (absolute,\n"
+     "or with ..); scan never writes them, so they are refused",
+     set_allow_outside_paths},
     CLI_OPT_JOBS,
     CLI_OPT_QUIET,
     CLI_OPT_HELP,
@@ -87,7 +98,7 @@ static int cmd_pack(int argc, char **argv)
     struct kiln_pack_opts o;
     memset(&o, 0, sizeof o);
     kiln_recipe_defaults(&o.recipe);
-    struct cli_args a = {.recipe = &o.recipe};
+    struct cli_args a = {.recipe = &o.recipe, .own = &o};
     int code = cli_parse(&cli_pack, argc, argv, &a);
     if (code == CLI_GO) {
         o.outdir = a.output;

@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "../checked.h"
+#include "../textesc.h"
 #include "pack.h"
 #include "pipeline.h"
 
@@ -231,11 +232,26 @@ static int check_parts(const struct kiln_catalog *cat, const struct kiln_split_r
     return KILN_OK;
 }
 
-/* Checks that need no resources: every row with a split is usable, some row has one, and the
- * split record agrees with the rows. */
+/* Whether a relative path leaves the folder it is relative to: absolute, or a ".." step. */
+static bool path_leaves(const char *path)
+{
+    if (path[0] == '/')
+        return true;
+    for (const char *p = path; *p;) {
+        size_t n = strcspn(p, "/");
+        if (n == 2 && p[0] == '.' && p[1] == '.')
+            return true;
+        p += n;
+        p += *p == '/';
+    }
+    return false;
+}
+
+/* Checks that need no resources: every row with a split is usable and reads inside its source
+ * (unless allowed), some row has one, and the split record agrees with the rows. */
 static int check_catalogue(const struct kiln_catalog *cat,
-                           const struct kiln_split_record *split, struct kiln_pack_report *rep,
-                           size_t *packed, struct kiln_err *err)
+                           const struct kiln_split_record *split, bool allow_outside,
+                           struct kiln_pack_report *rep, size_t *packed, struct kiln_err *err)
 {
     *packed = 0;
     for (size_t i = 0; i < cat->n; i++) {
@@ -243,6 +259,18 @@ static int check_catalogue(const struct kiln_catalog *cat,
         if (it->split != KILN_SPLIT_NONE && it->status != KILN_ST_OK)
             return kiln_err_set(err, KILN_EINVAL, "catalogue row %zu has a split but status %s",
                                 i + 1, kiln_status_name(it->status));
+        const char *path = it->from_source ? it->from_path : it->path;
+        if (it->split != KILN_SPLIT_NONE && !allow_outside && path_leaves(path)) {
+            char *shown = kiln_text_escape(path);
+            char *src = kiln_text_escape(it->from_source ? it->from_source : it->source);
+            kiln_err_set(err, KILN_EINVAL,
+                         "catalogue row %zu names the path '%s', which leaves its source %s; "
+                         "scan never writes such rows (--allow-outside-paths reads them)",
+                         i + 1, shown ? shown : "?", src ? src : "?");
+            free(shown);
+            free(src);
+            return KILN_EINVAL;
+        }
         *packed += it->split != KILN_SPLIT_NONE;
     }
     rep->skipped = cat->n - *packed;
@@ -272,7 +300,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     memset(rep, 0, sizeof *rep);
     const struct kiln_recipe *r = &o->recipe;
     size_t packed;
-    int rc = check_catalogue(cat, o->split, rep, &packed, err);
+    int rc = check_catalogue(cat, o->split, o->allow_outside_paths, rep, &packed, err);
     if (rc)
         return rc;
     struct pack_run run;

@@ -33,6 +33,9 @@ struct kiln_pack_opts {
     void *progress_ctx;
     /* kiln build: records prepared during scan (each item's pool_slot); no decoding here. */
     struct kiln_record_pool *pool;
+    /* Read rows whose path leaves its source (absolute, or with a ".." step); scan never
+     * writes such rows, so by default they are refused as a hand-edited catalogue's. */
+    bool allow_outside_paths;
 };
 
 struct kiln_pack_report {

@@ -39,6 +39,7 @@ int kiln_record_scan(struct kiln_scan_record *r, const char *const *sources, siz
     r->follow_links = o->walk.follow_links;
     r->max_pixels = o->limits.max_pixels;
     r->max_side = o->limits.max_side;
+    r->max_file_bytes = o->walk.max_file_bytes;
     r->rows = cat->n;
     memcpy(r->status, rep->status, sizeof r->status);
     r->hidden = rep->hidden;

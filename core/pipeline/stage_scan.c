@@ -30,7 +30,7 @@ void kiln_scan_opts_defaults(struct kiln_scan_opts *o)
 {
     memset(o, 0, sizeof *o);
     o->labels = KILN_LABELS_FOLDER;
-    o->walk.max_file_bytes = 4ull << 30;
+    o->walk.max_file_bytes = KILN_DEFAULT_MAX_FILE_BYTES;
     o->limits.max_pixels = 1ull << 28;
     o->limits.max_side = 65535;
     o->jobs = 1;

@@ -310,6 +310,8 @@ static json_t *scan_json(const struct kiln_scan_record *r)
     json_object_set_new(j, "follow_links", json_boolean(r->follow_links));
     json_object_set_new(j, "max_pixels", json_integer((json_int_t)r->max_pixels));
     json_object_set_new(j, "max_side", json_integer(r->max_side));
+    if (r->max_file_bytes)
+        json_object_set_new(j, "max_file_bytes", json_integer((json_int_t)r->max_file_bytes));
     json_object_set_new(j, "rows", count(r->rows));
     for (int s = 0; s < KILN_ST_COUNT; s++)
         if (r->status[s])
@@ -511,6 +513,8 @@ static void read_scan(struct reader *r, struct kiln_scan_record *s)
     s->follow_links = read_bool(r, "follow_links");
     s->max_pixels = read_count(r, "max_pixels");
     s->max_side = (uint32_t)read_count(r, "max_side");
+    if (json_object_get(r->obj, "max_file_bytes")) /* recorded since kiln 0.1.0's catalogues */
+        s->max_file_bytes = read_count(r, "max_file_bytes");
     s->rows = read_count(r, "rows");
     const json_t *st = field(r, "status_counts", JSON_OBJECT);
     const char *name;

@@ -51,6 +51,7 @@ struct kiln_scan_record {
     bool follow_links;
     uint64_t max_pixels;
     uint32_t max_side;
+    uint64_t max_file_bytes; /* 0: not recorded (catalogues of kiln 0.1.0) */
     size_t rows;
     size_t status[KILN_ST_COUNT]; /* rows per status; only those above 0 are written */
     size_t hidden, junk;          /* files skipped without a row */

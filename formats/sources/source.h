@@ -27,6 +27,12 @@ struct kiln_walk_opts {
     uint64_t max_file_bytes; /* larger files get status too-large without being read */
 };
 
+/* Default bound on one file or archive member (scan's --max-file-size): 1 GiB holds the
+ * largest image --max-pixels allows in the common layouts (2^28 pixels: 8-bit RGB or 16-bit
+ * grey uncompressed), while a bomb (a small zip with a 2 GB member, a sparse file) is refused
+ * before a byte of it is read. */
+#define KILN_DEFAULT_MAX_FILE_BYTES ((uint64_t)1 << 30)
+
 /* Files skipped without a row (hidden files, OS junk), counted per kind. */
 struct kiln_walk_counts {
     size_t hidden, junk;

@@ -1,5 +1,6 @@
 # Stage files edited by hand or mixed up get a clear refusal, never a crash or a wrong read:
-# a split record whose "parts" disagrees with the rows; a UTF-8 byte-order mark in front of a
+# a split record whose "parts" disagrees with the rows; catalogue rows whose path leaves its
+# source (absolute, "..": scan never writes them); a UTF-8 byte-order mark in front of a
 # catalogue (a spreadsheet's save), which changes nothing; catalogues with a header and no row;
 # and a .kten whose metadata holds a class that is not a string and terminal control codes,
 # which inspect shows escaped.
@@ -51,7 +52,40 @@ expect_exit 3 "$KILN" pack "$work/empty-split.csv" -o "$work/empty" --size 8
 expect_exit 3 "$KILN" pack "$work/empty.csv" -o "$work/empty" --size 8
 expect_exit 3 "$KILN" audit "$work/empty.csv"
 
-# 4. inspect: a class that is not a string and control codes in the metadata (an OSC sequence
+# 4. Paths that leave their source. The catalogue is rewritten with Python's csv module:
+# one packed row of class crawling is moved to source DATA/crawling with path
+# ../crazing/<name> (a real file with the recorded content), another gets an absolute path.
+"$PYTHON" - "$work/c.csv" "$work/data" <<'PY'
+import csv, os, sys
+src, data = sys.argv[1], sys.argv[2]
+rows = list(csv.reader(open(src, newline="")))
+head, body = rows[0], rows[1:]
+col = {n: i for i, n in enumerate(head)}
+packed = [r for r in body if r[col["split"]] and r[col["member"]] == ""]
+a = next(r for r in packed if r[col["path"]].startswith("crazing/"))
+a[col["source"]] = os.path.join(data, "crawling")
+a[col["path"]] = "../" + a[col["path"]]
+with open(src.replace("c.csv", "up.csv"), "w", newline="") as f:
+    csv.writer(f, lineterminator="\r\n").writerows([head] + body)
+rows = list(csv.reader(open(src, newline="")))
+b = next(r for r in rows[1:] if r[col["split"]] and r[col["member"]] == "")
+b[col["path"]] = "/etc/hostname"
+with open(src.replace("c.csv", "abs.csv"), "w", newline="") as f:
+    csv.writer(f, lineterminator="\r\n").writerows(rows)
+PY
+cp "$work/c.json" "$work/up.json"
+cp "$work/c.json" "$work/abs.json"
+expect_exit 3 "$KILN" pack "$work/up.csv" -o "$work/up" --size 8
+grep -Eq "catalogue row [0-9]+ names the path '\.\./crazing/[^']+', which leaves its source .*/crawling; scan never writes such rows" \
+    "$work/stderr" || fail "a '..' path: $(cat "$work/stderr")"
+expect_exit 3 "$KILN" pack "$work/abs.csv" -o "$work/abs" --size 8
+grep -q "names the path '/etc/hostname', which leaves its source" "$work/stderr" ||
+    fail "an absolute path: $(cat "$work/stderr")"
+# Allowed on request: the '..' row holds the recorded content, so the pack succeeds.
+expect_exit 0 "$KILN" pack "$work/up.csv" -o "$work/up" --size 8 --allow-outside-paths -q
+expect_exit 0 "$KILN" verify "$work/up"
+
+# 5. inspect: a class that is not a string and control codes in the metadata (an OSC sequence
 # that would retitle the terminal, a CSI that would clear it, a C1 control) are shown escaped.
 "$PYTHON" - "$work/plain/train.kten" "$work/odd.kten" <<'PY'
 import hashlib, json, struct, sys

@@ -1,6 +1,8 @@
-# Bounded cost per item: an output record larger than the documented limit (256 MiB,
-# docs/cli.md "Limits") is a bad --size, refused before any work -- --size 65535x65535 used to
-# reserve 64 GB for five images.
+# Bounded cost per item (docs/cli.md, "Limits" and scan's --max-file-size): a file or archive
+# member larger than the limit is a too-large row and is never read -- a 9 MB zip holding a
+# 2 GB member and a sparse 3 GB file used to cost 2-3 GB of memory in scan; an output record
+# larger than 256 MiB is a bad --size, refused before any work -- --size 65535x65535 used to
+# reserve 64 GB for five images; pack reads no more of a file than scan recorded.
 . "$(dirname "$0")/lib.sh"
 demo_data "$work/data"
 expect_exit 0 "$KILN" scan "$work/data" -o "$work/c.csv" -q
@@ -38,4 +40,32 @@ mkfifo "$grown"
 expect_exit 5 timeout 120 "$KILN" pack "$work/k.csv" -o "$work/fifo" --size 16
 grep -q "$(basename "$grown") since it was scanned: it is no longer a regular file" "$work/stderr" ||
     fail "FIFO: $(cat "$work/stderr")"
+
+# scan: the default limit (1 GiB), a lower one given, and a bad value.
+mkdir -p "$work/bombs/big"
+"$PYTHON" - "$work/bombs/bomb.zip" <<'PY'
+import sys, zipfile
+# 2 GiB of zeros, deflated: a 9 MB zip (the sizes go in the central directory).
+with zipfile.ZipFile(sys.argv[1], "w", zipfile.ZIP_DEFLATED, compresslevel=1) as z:
+    with z.open("big/huge.png", "w", force_zip64=True) as f:
+        block = bytes(1 << 24)
+        for _ in range(128):
+            f.write(block)
+PY
+truncate -s 3G "$work/bombs/big/sparse.png"
+cp "$(first_file "$work/data/" -name '*.png')" "$work/bombs/big/small.png"
+peak_rss "$KILN" scan "$work/bombs" -o "$work/bombs.csv" --jobs 2
+[ "$status" = 0 ] || fail "scan of the bombs exited $status: $(cat "$work/stderr")"
+grep -q "too-large: .*bomb.zip/big/huge.png: member of 2147483648 bytes exceeds the 1073741824-byte limit" \
+    "$work/stdout" || fail "zip member: $(cat "$work/stdout")"
+grep -q "too-large: .*big/sparse.png: file of 3221225472 bytes exceeds the 1073741824-byte limit" \
+    "$work/stdout" || fail "sparse file: $(cat "$work/stdout")"
+[ "$rss_kib" -lt 65536 ] || fail "scan took $rss_kib KiB for files it should not read"
+grep -q '"max_file_bytes": *1073741824' "$work/bombs.json" || fail "limit not recorded"
+size=$(stat -c %s "$work/bombs/big/small.png")
+expect_exit 0 "$KILN" scan "$work/bombs" -o "$work/small.csv" --max-file-size "$((size - 1))"
+grep -q "too-large: .*big/small.png: file of $size bytes exceeds the $((size - 1))-byte limit" \
+    "$work/stdout" || fail "a lower --max-file-size: $(cat "$work/stdout")"
+expect_exit 0 "$KILN" scan "$work/bombs" -o "$work/k4.csv" --max-file-size 4G -q
+grep -q '"max_file_bytes": *4294967296' "$work/k4.json" || fail "4G is not 2^32 bytes"
 echo ok

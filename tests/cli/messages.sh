@@ -98,6 +98,8 @@ bad_values=(
     "scan data -o x.csv --group-regex (T|bad --group-regex '(T'"
     "scan data -o x.csv --group-regex T[0-9]+|it has no capture group"
     "scan data -o x.csv --max-pixels -3|bad --max-pixels '-3'"
+    "scan data -o x.csv --max-file-size 2Q|bad --max-file-size '2Q'"
+    "build data -o out --seed 1 --size 8 --max-file-size 0|bad --max-file-size '0'"
     "split c.csv --seed 1 --mode fast|bad --mode 'fast'"
     "split c.csv --seed x|bad --seed 'x'"
     "split c.csv --seed 1 --ratios 0:50:50|bad --ratios '0:50:50'"
