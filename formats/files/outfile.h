@@ -44,6 +44,49 @@ void kiln_outfile_abort(struct kiln_outfile *of);
  * signal handler (it takes a lock); kiln calls it from a thread that waits for signals. */
 void kiln_outfile_remove_all(size_t *files, uint64_t *bytes);
 
+/* ---- Replacing an output folder's files together (docs/cli.md, "What a failed run leaves").
+ * A run stages its folder, writes every file through kiln_outfile_open and _commit as usual
+ * (which then only finish them under their temporary names), and puts them all in place with
+ * kiln_outfile_replace, or drops them with kiln_outfile_discard: until then the folder's files
+ * are exactly as they were. The replace writes a journal first (KILN_OUTFILE_JOURNAL: each
+ * file's final, temporary and backup name), moves each old file aside under a backup name
+ * (".<name>.old-<pid>-<n>") and the new one into place, and removes the journal: that removal is
+ * the moment the new files become the output. A replace that fails or is interrupted, in the
+ * process (it rolls back) or by a kill (kiln_outfile_recover, next time), leaves the old files. */
+#define KILN_OUTFILE_JOURNAL ".kiln-journal"
+
+/* From now until kiln_outfile_replace or _discard, kiln_outfile_commit of a file whose final
+ * path is in dir (the same string) flushes, fsyncs and closes it and keeps it, still listed,
+ * under its temporary name; writing one final name twice keeps the second. One folder at a
+ * time. */
+int kiln_outfile_stage(const char *dir, struct kiln_err *err);
+/* The temporary path holding final_path's staged file (malloc'ed), or NULL: to hash a file
+ * before it is in place. */
+char *kiln_outfile_staged_path(const char *final_path);
+/* Puts every staged file in place and takes away the files named in remove (names inside the
+ * staged folder; those that do not exist or are staged are skipped), all or nothing, and ends
+ * staging. KILN_OK, or KILN_EWRITE with the folder as it was and the staged files removed. */
+int kiln_outfile_replace(const char *const *remove, size_t nremove, struct kiln_err *err);
+/* Removes the staged files and ends staging: the folder is as it was. */
+void kiln_outfile_discard(void);
+
+/* What kiln_outfile_recover found. */
+struct kiln_recovery {
+    bool journal;  /* the folder held a journal */
+    bool busy;     /* ... of a process that is still running: nothing was touched */
+    bool restored; /* ... of a process that was killed while renaming: the old files are back */
+    long pid;      /* the process that wrote it */
+};
+/* Looks for the journal of a replace in dir. When its process is gone, puts the folder back as
+ * it was before that replace (or, for a journal cut short before any rename, removes its
+ * temporary files) and removes the journal. Every name in the journal must be one is_output
+ * accepts, with kiln's temporary and backup names for the journal's process; otherwise nothing
+ * is touched and the result is KILN_EINVAL naming the journal. */
+int kiln_outfile_recover(const char *dir, bool (*is_output)(const char *name),
+                         struct kiln_recovery *r, struct kiln_err *err);
+/* Whether name is a backup name the replace makes for base, and for which process. */
+bool kiln_outfile_is_backup_name(const char *name, const char *base, long *pid);
+
 /* fsyncs a folder so a rename inside it is durable; a failure is KILN_EWRITE. */
 int kiln_fsync_dir(const char *dir, struct kiln_err *err);
 
