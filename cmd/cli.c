@@ -203,8 +203,17 @@ int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
     return KILN_EXIT_OK;
 }
 
+void cli_report_restored(const char *outdir, long pid)
+{
+    cli_warn("put the earlier output in %s back in place: kiln process %ld was killed while it "
+             "replaced its files",
+             outdir, pid);
+}
+
 void cli_report_debris(const char *outdir, const struct kiln_debris *d)
 {
+    if (d->restored)
+        cli_report_restored(outdir, d->restored_pid);
     if (d->removed)
         cli_warn("removed %zu temporary %s (%.1f MB, %llu bytes) that an interrupted run left in "
                  "%s",

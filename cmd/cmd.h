@@ -192,6 +192,8 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
  * files); silent when there was nothing. */
 struct kiln_debris;
 void cli_report_debris(const char *outdir, const struct kiln_debris *d);
+/* Says on stderr that a killed run's half-done replace of outdir's files was undone. */
+void cli_report_restored(const char *outdir, long pid);
 
 
 #endif

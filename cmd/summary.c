@@ -57,6 +57,10 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
     if (rep->hidden || rep->junk)
         fprintf(f, "skipped without a row: %zu hidden, %zu system %s\n", rep->hidden, rep->junk,
                 plural(rep->junk, "file", "files"));
+    if (rep->outputs)
+        fprintf(f, "skipped without a row: %zu kiln output %s inside the sources (%s%s)\n",
+                rep->outputs, plural(rep->outputs, "folder", "folders"), rep->first_output,
+                rep->outputs > 1 ? ", ..." : "");
     size_t unusable = cat->n - rep->status[KILN_ST_OK], shown = 0, pages = 0;
     for (size_t i = 0; i < cat->n; i++) {
         const struct kiln_item *it = &cat->items[i];

@@ -57,6 +57,8 @@ static int verify(const char *dir, const char *const *sources, size_t nsources, 
     struct kiln_err err;
     kiln_err_clear(&err);
     int rc = kiln_stage_verify(dir, on_issue, &quiet, &rep, &err);
+    if (rep.restored)
+        cli_report_restored(dir, rep.restored_pid);
     if (rc == KILN_EMISMATCH) {
         cli_error("%s: %zu problems (files or arrays differ from their recorded SHA-256)", dir,
                   rep.problems);

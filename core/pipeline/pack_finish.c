@@ -12,6 +12,7 @@
 #include "../audit.h"
 #include "../checked.h"
 #include "../names.h"
+#include "../../formats/files/outfile.h"
 #include "pack.h"
 #include "pipeline.h"
 #include "record_pool.h"
@@ -128,18 +129,6 @@ static int finish_tensors(struct pack_run *run, struct kiln_err *err)
     return rc;
 }
 
-/* Tensor files an earlier run wrote for a split this run does not have. */
-static void remove_stale(const struct pack_run *run)
-{
-    for (int s = 0; s < KILN_NSPLITS; s++)
-        if (!run->rep->present[s]) {
-            char *p = kiln_pipeline_path(run->o->outdir, kiln_manifest_split_files[s]);
-            if (p)
-                unlink(p);
-            free(p);
-        }
-}
-
 static int write_tables(const struct pack_run *run, struct kiln_err *err)
 {
     char *items = kiln_pipeline_path(run->o->outdir, KILN_FILE_ITEMS);
@@ -164,9 +153,12 @@ static int add_output(struct pack_run *run, const char *name, struct kiln_err *e
     char *path = kiln_pipeline_path(run->o->outdir, name);
     if (!path)
         return kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    /* Not in place yet: the file waits under its temporary name for the replace. */
+    char *staged = kiln_outfile_staged_path(path);
     uint8_t d[KILN_SHA256_LEN];
     out->name = name;
-    int rc = kiln_file_sha256(path, d, &out->bytes, err);
+    int rc = kiln_file_sha256(staged ? staged : path, d, &out->bytes, err);
+    free(staged);
     free(path);
     if (!rc) {
         kiln_sha256_hex(d, out->sha256);
@@ -202,6 +194,22 @@ static int write_manifest(struct pack_run *run, struct kiln_err *err)
     free(mp);
     free(sp);
     return rc;
+}
+
+/* Every file written takes the place of the earlier output's at once (docs/cli.md, "What a
+ * failed run leaves"). */
+static int put_in_place(const struct pack_run *run, struct kiln_err *err)
+{
+    const char *names[KILN_NSPLITS + 4];
+    size_t n = 0;
+    for (int s = 0; s < KILN_NSPLITS; s++)
+        if (run->rep->present[s])
+            names[n++] = kiln_manifest_split_files[s];
+    names[n++] = KILN_FILE_ITEMS;
+    names[n++] = KILN_FILE_CATALOG;
+    names[n++] = KILN_FILE_MANIFEST;
+    names[n++] = KILN_FILE_SUMS;
+    return kiln_pipeline_replace_outputs(run->o->outdir, names, n, err);
 }
 
 /* The audit of what was packed, at the radius the split merged near duplicates at. */
@@ -254,11 +262,11 @@ int kiln_pack_finish(struct pack_run *run, struct kiln_err *err)
     m->split = o->split ? &split : NULL;
     rc = write_tables(run, err);
     if (!rc)
-        remove_stale(run);
-    if (!rc)
         rc = audit(run, &a, err);
     if (!rc)
         rc = write_manifest(run, err);
+    if (!rc)
+        rc = put_in_place(run, err);
     kiln_audit_free(&a);
     kiln_scan_record_free(&scan);
     kiln_split_record_free(&split);

@@ -15,6 +15,7 @@
 
 #include "../../formats/files/manifest.h"
 #include "../../formats/files/outfile.h"
+#include "../../formats/files/owner.h"
 
 char *kiln_pipeline_path(const char *dir, const char *name)
 {
@@ -50,13 +51,9 @@ static int make_dirs(const char *path, struct kiln_err *err)
     return rc;
 }
 
-/* The files an earlier output may hold; the first two are removed before a run writes. */
-static const char *const owned_names[] = {
-    KILN_FILE_MANIFEST, KILN_FILE_SUMS,  KILN_FILE_ITEMS, KILN_FILE_CATALOG,
-    KILN_FILE_TRAIN,    KILN_FILE_VAL,   KILN_FILE_TEST,  KILN_FILE_LOG};
-
-/* Final names whose temporary files (".<name>.tmp-<pid>-<n>", formats/files/outfile.c) pack
- * and build create in an output folder: the outputs and the scratch record pool. */
+/* Final names whose temporary and backup files (".<name>.tmp-<pid>-<n>", ".<name>.old-<pid>-<n>",
+ * formats/files/outfile.c) pack and build create in an output folder: the outputs and the
+ * scratch record pool. */
 static const char *const temp_bases[] = {
     KILN_FILE_MANIFEST, KILN_FILE_SUMS, KILN_FILE_ITEMS, KILN_FILE_CATALOG,
     KILN_FILE_TRAIN,    KILN_FILE_VAL,  KILN_FILE_TEST,  KILN_FILE_POOL};
@@ -64,7 +61,8 @@ static const char *const temp_bases[] = {
 static bool is_kiln_temp(const char *name, long *pid)
 {
     for (size_t i = 0; i < sizeof temp_bases / sizeof temp_bases[0]; i++)
-        if (kiln_outfile_is_temp_name(name, temp_bases[i], pid))
+        if (kiln_outfile_is_temp_name(name, temp_bases[i], pid) ||
+            kiln_outfile_is_backup_name(name, temp_bases[i], pid))
             return true;
     return false;
 }
@@ -75,8 +73,9 @@ static bool process_alive(long pid)
 }
 
 /* Removes what an interrupted run left: only regular files (never a link) whose names kiln's
- * temporary-name pattern gives for one of its own outputs, and only when the process that made
- * them is gone (a run still writing into the folder keeps its files; they are counted). */
+ * temporary- and backup-name patterns give for one of its own outputs, and only when the
+ * process that made them is gone (a run still writing into the folder keeps its files; they
+ * are counted). Backups are left only by a run killed after its replace was done. */
 static int sweep_debris(DIR *d, const char *dir, struct kiln_debris *debris, struct kiln_err *err)
 {
     const int fd = dirfd(d);
@@ -102,12 +101,33 @@ static int sweep_debris(DIR *d, const char *dir, struct kiln_debris *debris, str
     return KILN_OK;
 }
 
-static bool is_owned(const char *name)
+/* What a folder that is not a kiln output holds besides hidden files: its first visible entry in
+ * byte order and how many there are, or count 0. */
+static void visible_entries(DIR *d, char *first, size_t len, size_t *count)
 {
-    for (size_t i = 0; i < sizeof owned_names / sizeof owned_names[0]; i++)
-        if (strcmp(name, owned_names[i]) == 0)
-            return true;
-    return false;
+    rewinddir(d);
+    *count = 0;
+    first[0] = '\0';
+    struct dirent *de;
+    while ((de = readdir(d)) != NULL) {
+        if (de->d_name[0] == '.')
+            continue; /* hidden: never kiln's to judge or touch, except its own debris */
+        if (!(*count)++ || strcmp(de->d_name, first) < 0)
+            snprintf(first, len, "%s", de->d_name);
+    }
+}
+
+/* A kiln name in a kiln output that its SHA256SUMS does not list: someone else's file. */
+static const char *unlisted_kiln_name(DIR *d, unsigned files)
+{
+    rewinddir(d);
+    struct dirent *de;
+    while ((de = readdir(d)) != NULL) {
+        int i = kiln_owner_name_index(de->d_name);
+        if (i >= 0 && !(files & 1u << i))
+            return kiln_owner_names[i];
+    }
+    return NULL;
 }
 
 int kiln_pipeline_prepare_outdir(const char *dir, struct kiln_debris *debris,
@@ -117,43 +137,107 @@ int kiln_pipeline_prepare_outdir(const char *dir, struct kiln_debris *debris,
     int rc = make_dirs(dir, err);
     if (rc)
         return rc;
+    /* A run killed while it put its files in place left a journal: the old files go back
+     * first, so the folder is judged as the output it was. */
+    struct kiln_recovery rec;
+    rc = kiln_outfile_recover(dir, kiln_owner_is_output_name, &rec, err);
+    if (rc == KILN_EINVAL) { /* a journal kiln did not write: the folder is not for writing */
+        kiln_err_prefix(err, "cannot write into %s", dir);
+        err->code = KILN_EWRITE;
+        return KILN_EWRITE;
+    }
+    if (rc)
+        return rc;
+    if (rec.busy)
+        return kiln_err_set(err, KILN_EWRITE,
+                            "cannot write into %s: kiln process %ld is replacing its files now "
+                            "(%s/%s); wait for it to end or use another folder",
+                            dir, rec.pid, dir, KILN_OUTFILE_JOURNAL);
+    debris->restored = rec.restored;
+    debris->restored_pid = rec.pid;
+    struct kiln_owner owner;
+    rc = kiln_owner_of(dir, &owner, err);
+    if (rc)
+        return rc;
+    if (owner.kind == KILN_OWNER_OTHER)
+        return kiln_err_set(err, KILN_EWRITE,
+                            "cannot write into %s: its %s is not a kiln manifest (%s); kiln "
+                            "writes only into an empty folder or one it wrote, and never "
+                            "replaces anyone else's files: use another folder",
+                            dir, KILN_FILE_MANIFEST, owner.found);
     DIR *d = opendir(dir);
     if (!d)
         return kiln_err_sys(err, KILN_EWRITE, errno, "cannot open output folder %s", dir);
-    bool has_manifest = false, foreign = false;
-    char foreign_name[256] = "";
-    struct dirent *de;
-    while ((de = readdir(d)) != NULL) {
-        if (de->d_name[0] == '.')
-            continue; /* temporary files of this or an interrupted run */
-        if (strcmp(de->d_name, KILN_FILE_MANIFEST) == 0)
-            has_manifest = true;
-        else if (!is_owned(de->d_name) && !foreign) {
-            foreign = true;
-            snprintf(foreign_name, sizeof foreign_name, "%s", de->d_name);
-        }
-    }
-    if (foreign && !has_manifest) {
+    char first[256];
+    size_t count;
+    visible_entries(d, first, sizeof first, &count);
+    const char *unlisted = owner.kind == KILN_OWNER_KILN ? unlisted_kiln_name(d, owner.files)
+                                                         : NULL;
+    if (owner.kind == KILN_OWNER_NONE && count) {
         closedir(d);
-        return kiln_err_set(err, KILN_EINVAL,
-                            "output folder %s holds '%s' and no kiln manifest; use an empty or "
-                            "new folder",
-                            dir, foreign_name);
+        return kiln_err_set(err, KILN_EWRITE,
+                            "cannot write into %s: it holds '%s'%s and no kiln manifest; kiln "
+                            "writes only into an empty folder or one it wrote, and never "
+                            "replaces anyone else's files: use an empty or new folder",
+                            dir, first, count == 1 ? "" : count == 2 ? " and 1 more entry"
+                                                                     : " and more entries");
+    }
+    if (unlisted) {
+        closedir(d);
+        return kiln_err_set(err, KILN_EWRITE,
+                            "cannot write into %s: it holds %s, which its %s does not list as "
+                            "kiln's, so it is someone else's file; move it away or use "
+                            "another folder",
+                            dir, unlisted, KILN_FILE_SUMS);
     }
     rc = sweep_debris(d, dir, debris, err);
     closedir(d);
-    if (rc)
-        return rc;
-    for (int k = 0; k < 2; k++) {
-        char *p = kiln_pipeline_path(dir, owned_names[k]);
-        if (!p)
-            return kiln_err_set(err, KILN_ENOMEM, "out of memory");
-        if (unlink(p) != 0 && errno != ENOENT) {
-            rc = kiln_err_sys(err, KILN_EWRITE, errno, "cannot remove the old %s", p);
-            free(p);
-            return rc;
-        }
+    return rc;
+}
+
+int kiln_pipeline_stage_outputs(const char *dir, struct kiln_err *err)
+{
+    return kiln_outfile_stage(dir, err);
+}
+
+void kiln_pipeline_discard_outputs(void)
+{
+    kiln_outfile_discard();
+}
+
+int kiln_pipeline_replace_outputs(const char *dir, const char *const *written, size_t nwritten,
+                                  struct kiln_err *err)
+{
+    /* Judged again now: the folder must still be what it was when the run began. */
+    struct kiln_owner owner;
+    int rc = kiln_owner_of(dir, &owner, err);
+    if (!rc && owner.kind == KILN_OWNER_OTHER)
+        rc = kiln_err_set(err, KILN_EWRITE,
+                          "cannot write into %s: its %s was replaced during the run by one that "
+                          "is not kiln's (%s)",
+                          dir, KILN_FILE_MANIFEST, owner.found);
+    const char *remove[KILN_OWNER_NNAMES];
+    size_t nremove = 0;
+    for (int i = 0; !rc && i < KILN_OWNER_NNAMES; i++) {
+        bool new = false;
+        for (size_t k = 0; k < nwritten && !new; k++)
+            new = strcmp(written[k], kiln_owner_names[i]) == 0;
+        const bool kilns = owner.kind == KILN_OWNER_KILN && owner.files & 1u << i;
+        char *p = kiln_pipeline_path(dir, kiln_owner_names[i]);
+        struct stat st;
+        const bool there = p && lstat(p, &st) == 0;
         free(p);
+        if (new && there && !kilns)
+            rc = kiln_err_set(err, KILN_EWRITE,
+                              "cannot write %s/%s: a file of that name appeared during the run, "
+                              "and it is not kiln's",
+                              dir, kiln_owner_names[i]);
+        else if (!new && kilns)
+            remove[nremove++] = kiln_owner_names[i]; /* the earlier output's, not rewritten */
     }
-    return kiln_fsync_dir(dir, err);
+    if (rc) {
+        kiln_outfile_discard();
+        return rc;
+    }
+    return kiln_outfile_replace(remove, nremove, err);
 }

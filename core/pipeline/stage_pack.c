@@ -323,6 +323,11 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     rc = plan(&run, err);
     if (!rc)
         rc = o->pool ? KILN_OK : kiln_pipeline_prepare_outdir(o->outdir, &rep->debris, err);
+    /* Nothing of an earlier output changes until every new file is complete: then they all
+     * replace it at once (kiln_pack_finish). */
+    bool staged = false;
+    if (!rc)
+        staged = (rc = kiln_pipeline_stage_outputs(o->outdir, err)) == KILN_OK;
     if (!rc)
         rc = open_outputs(&run, err);
     if (!rc)
@@ -331,6 +336,8 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         rc = kiln_pack_finish(&run, err);
     if (rc)
         abort_outputs(&run);
+    if (rc && staged)
+        kiln_pipeline_discard_outputs();
     for (int s = 0; s < KILN_NSPLITS; s++)
         free(run.order[s]);
     free(run.record_of);

@@ -44,6 +44,7 @@ int kiln_record_scan(struct kiln_scan_record *r, const char *const *sources, siz
     memcpy(r->status, rep->status, sizeof r->status);
     r->hidden = rep->hidden;
     r->junk = rep->junk;
+    r->outputs_skipped = rep->outputs;
     r->has_group_counts = o->group_regex != NULL;
     r->group_matched = rep->group_matched;
     r->group_unmatched = rep->group_unmatched;

@@ -158,7 +158,7 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
 {
     memset(rep, 0, sizeof *rep);
     json_t *m = NULL;
-    int rc = kiln_json_load(o->manifest, &m, err);
+    int rc = kiln_manifest_load(o->manifest, &m, err);
     if (rc)
         return rc;
     char *cpath = sibling(o->manifest, KILN_FILE_CATALOG);

@@ -213,15 +213,22 @@ struct reader_args {
 static void *reader_main(void *arg)
 {
     struct reader_args *a = arg;
-    struct kiln_walk_counts counts = {0, 0};
     a->rc = KILN_OK;
-    for (size_t i = 0; i < a->nsources && !a->rc; i++)
+    for (size_t i = 0; i < a->nsources && !a->rc; i++) {
+        struct kiln_walk_counts counts;
+        memset(&counts, 0, sizeof counts);
         a->rc = kiln_source_walk(a->sources[i], &a->run->o->walk, NULL, push_entry, a->run,
                                  &counts, &a->err);
-    pthread_mutex_lock(&a->run->mu);
-    a->run->rep->hidden += counts.hidden;
-    a->run->rep->junk += counts.junk;
-    pthread_mutex_unlock(&a->run->mu);
+        struct kiln_scan_report *rep = a->run->rep;
+        pthread_mutex_lock(&a->run->mu);
+        rep->hidden += counts.hidden;
+        rep->junk += counts.junk;
+        if (counts.outputs && !rep->outputs)
+            snprintf(rep->first_output, sizeof rep->first_output, "%s/%s", a->sources[i],
+                     counts.first_output);
+        rep->outputs += counts.outputs;
+        pthread_mutex_unlock(&a->run->mu);
+    }
     kiln_queue_close(&a->run->q);
     return NULL;
 }

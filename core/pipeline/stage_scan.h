@@ -36,6 +36,8 @@ void kiln_scan_opts_defaults(struct kiln_scan_opts *o);
 
 struct kiln_scan_report {
     size_t hidden, junk;
+    size_t outputs;          /* kiln output folders under a source, skipped */
+    char first_output[256];  /* the first of them, as source/relative name */
     size_t status[KILN_ST_COUNT];
     uint64_t bytes;
     size_t group_matched, group_unmatched; /* usable files, with a group rule */

@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../../formats/files/owner.h"
 #include "../../formats/files/kten.h"
 #include "../../formats/files/manifest.h"
 #include "../../formats/files/outfile.h"
@@ -102,11 +103,22 @@ int kiln_stage_verify(const char *outdir, kiln_issue_fn fn, void *ctx,
                       struct kiln_verify_report *rep, struct kiln_err *err)
 {
     memset(rep, 0, sizeof *rep);
+    struct kiln_recovery rec;
+    int rc = kiln_outfile_recover(outdir, kiln_owner_is_output_name, &rec, err);
+    if (rc)
+        return rc;
+    if (rec.busy)
+        return kiln_err_set(err, KILN_EIO,
+                            "kiln process %ld is replacing its files now (%s/%s); verify when it "
+                            "has ended",
+                            rec.pid, outdir, KILN_OUTFILE_JOURNAL);
+    rep->restored = rec.restored;
+    rep->restored_pid = rec.pid;
     char *mpath = kiln_pipeline_path(outdir, KILN_FILE_MANIFEST);
     if (!mpath)
         return kiln_err_set(err, KILN_ENOMEM, "out of memory");
     json_t *m;
-    int rc = kiln_json_load(mpath, &m, err);
+    rc = kiln_manifest_load(mpath, &m, err);
     free(mpath);
     if (rc)
         return rc;
@@ -225,7 +237,7 @@ int kiln_stage_verify_sources(const char *outdir, const char *const *sources, si
     }
     /* The catalogue is only trusted when it matches the manifest. */
     json_t *m = NULL;
-    int rc = kiln_json_load(mpath, &m, err);
+    int rc = kiln_manifest_load(mpath, &m, err);
     const char *want = NULL;
     size_t i;
     json_t *o;

@@ -29,10 +29,15 @@ struct kiln_verify_report {
     /* Names hashed with a key verify was not given, and nothing at its recorded place under
      * the public key: moved and changed files cannot be told apart from elsewhere. */
     bool places_unknown;
+    /* A run killed while it put its files in place had left the folder half-replaced: the
+     * earlier output was put back before checking (kiln_outfile_recover), by process: */
+    bool restored;
+    long restored_pid;
 };
 
 /* Returns KILN_OK when every check passed, KILN_EMISMATCH when some did (each reported through
- * fn), or another code when the folder cannot be verified at all (no readable manifest). */
+ * fn), or another code when the folder cannot be verified at all (no readable manifest, or a
+ * kiln run replacing its files right now). A killed run's half-done replace is undone first. */
 int kiln_stage_verify(const char *outdir, kiln_issue_fn fn, void *ctx,
                       struct kiln_verify_report *rep, struct kiln_err *err);
 

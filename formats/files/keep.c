@@ -26,7 +26,7 @@ int kiln_keep_load(const char *manifest_path, struct kiln_keep *k, struct kiln_e
 {
     memset(k, 0, sizeof *k);
     json_t *m;
-    int rc = kiln_json_load(manifest_path, &m, err);
+    int rc = kiln_manifest_load(manifest_path, &m, err);
     if (rc)
         return rc;
     const char *want = NULL;

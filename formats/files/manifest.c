@@ -18,6 +18,7 @@
 #include "../../core/version.h"
 #include "../decoders/decoder.h"
 #include "outfile.h"
+#include "owner.h"
 #include "../sources/source.h"
 
 const char *const kiln_manifest_split_files[3] = {KILN_FILE_TRAIN, KILN_FILE_VAL, KILN_FILE_TEST};
@@ -84,6 +85,41 @@ int kiln_json_load(const char *path, json_t **doc, struct kiln_err *err)
         return kiln_err_set(err, KILN_EINVAL, "%s: top level is not a JSON object", path);
     }
     return KILN_OK;
+}
+
+int kiln_manifest_load(const char *path, json_t **doc, struct kiln_err *err)
+{
+    int rc = kiln_json_load(path, doc, err);
+    if (rc)
+        return rc;
+    const char *format = kiln_json_str(*doc, KILN_MANIFEST_FORMAT_KEY);
+    if (format && strcmp(format, KILN_MANIFEST_FORMAT) == 0)
+        return KILN_OK;
+    /* kiln 0.1.0 wrote no identifier: "manifest_version": 1 and "kiln_version" say it is its. */
+    const json_t *v = json_object_get(*doc, "manifest_version");
+    if (!format && json_is_integer(v) && json_integer_value(v) == 1 &&
+        kiln_json_str(*doc, "kiln_version"))
+        return KILN_OK;
+    char keys[160] = "";
+    size_t used = 0, k = 0;
+    const char *key;
+    json_t *val;
+    json_object_foreach(*doc, key, val)
+    {
+        if (k++ == 4 || used + strlen(key) + 8 >= sizeof keys) {
+            snprintf(keys + used, sizeof keys - used, ", ...");
+            break;
+        }
+        used += (size_t)snprintf(keys + used, sizeof keys - used, "%s%s", k > 1 ? ", " : "", key);
+    }
+    json_decref(*doc);
+    *doc = NULL;
+    if (format)
+        return kiln_err_set(err, KILN_EINVAL, "%s is not a kiln manifest: its \"%s\" is \"%.60s\"",
+                            path, KILN_MANIFEST_FORMAT_KEY, format);
+    return kiln_err_set(err, KILN_EINVAL,
+                        "%s is not a kiln manifest: it has no \"%s\": \"%s\" (its keys: %s)", path,
+                        KILN_MANIFEST_FORMAT_KEY, KILN_MANIFEST_FORMAT, keys[0] ? keys : "none");
 }
 
 const char *kiln_json_str(const json_t *obj, const char *key)
@@ -319,6 +355,8 @@ static json_t *scan_json(const struct kiln_scan_record *r)
     json_object_set_new(j, "status_counts", st);
     json_object_set_new(j, "hidden_skipped", count(r->hidden));
     json_object_set_new(j, "system_files_skipped", count(r->junk));
+    if (r->outputs_skipped)
+        json_object_set_new(j, "kiln_outputs_skipped", count(r->outputs_skipped));
     if (r->has_group_counts) {
         json_object_set_new(j, "group_matched", count(r->group_matched));
         json_object_set_new(j, "group_unmatched", count(r->group_unmatched));
@@ -531,6 +569,8 @@ static void read_scan(struct reader *r, struct kiln_scan_record *s)
     }
     s->hidden = read_count(r, "hidden_skipped");
     s->junk = read_count(r, "system_files_skipped");
+    if (json_object_get(r->obj, "kiln_outputs_skipped"))
+        s->outputs_skipped = read_count(r, "kiln_outputs_skipped");
     if ((s->has_group_counts = json_object_get(r->obj, "group_matched") != NULL)) {
         s->group_matched = read_count(r, "group_matched");
         s->group_unmatched = read_count(r, "group_unmatched");
@@ -711,6 +751,8 @@ static int add_splits(json_t *doc, const struct kiln_manifest *m, struct kiln_er
 int kiln_manifest_save(const char *path, const struct kiln_manifest *m, struct kiln_err *err)
 {
     json_t *doc = json_object();
+    /* First, so a folder is known to be kiln's from the first bytes (formats/files/owner.h). */
+    json_object_set_new(doc, KILN_MANIFEST_FORMAT_KEY, json_string(KILN_MANIFEST_FORMAT));
     json_object_set_new(doc, "manifest_version", json_integer(KILN_MANIFEST_VERSION));
     json_object_set_new(doc, "kiln_version", json_string(KILN_VERSION));
     json_object_set_new(doc, "libraries", kiln_library_versions_json());

@@ -21,8 +21,8 @@
 
 /* The files of an output folder (docs/formats.md), in the order SHA256SUMS lists them: the
  * tensor file of each split present, items.csv, catalog.csv, then manifest.json. records.pool
- * is the scratch file of build and of f32 packs, never renamed into place. No version writes
- * run.log; a folder holding it is still taken for kiln's (pipeline.c). */
+ * is the scratch file of build and of f32 packs, never renamed into place. Which of these files
+ * in a folder are kiln's is decided by content (formats/files/owner.h). */
 #define KILN_FILE_TRAIN "train.kten"
 #define KILN_FILE_VAL "val.kten"
 #define KILN_FILE_TEST "test.kten"
@@ -31,7 +31,6 @@
 #define KILN_FILE_MANIFEST "manifest.json"
 #define KILN_FILE_SUMS "SHA256SUMS"
 #define KILN_FILE_POOL "records.pool"
-#define KILN_FILE_LOG "run.log"
 /* The tensor file of each split, by enum kiln_split. */
 extern const char *const kiln_manifest_split_files[3];
 #define KILN_JSON_FLAGS (JSON_INDENT(2) | JSON_PRESERVE_ORDER | JSON_REAL_PRECISION(17))
@@ -55,6 +54,7 @@ struct kiln_scan_record {
     size_t rows;
     size_t status[KILN_ST_COUNT]; /* rows per status; only those above 0 are written */
     size_t hidden, junk;          /* files skipped without a row */
+    size_t outputs_skipped;       /* kiln output folders under a source (written when not 0) */
     bool has_group_counts;        /* with a group rule: */
     size_t group_matched, group_unmatched;
     bool has_csv_counts;          /* with --labels csv:FILE: */
@@ -157,6 +157,10 @@ char *kiln_manifest_kten_meta(const struct kiln_kten_meta *km, struct kiln_err *
 int kiln_json_save(const char *path, const json_t *doc, struct kiln_err *err);
 /* Loads and checks that the top level is an object. */
 int kiln_json_load(const char *path, json_t **doc, struct kiln_err *err);
+/* Loads a manifest.json and checks it is kiln's: "format": "kiln output manifest" (or, from
+ * kiln 0.1.0, "manifest_version": 1 with "kiln_version"); otherwise KILN_EINVAL saying what it
+ * holds instead. */
+int kiln_manifest_load(const char *path, json_t **doc, struct kiln_err *err);
 /* Serialises compactly-but-deterministically for hashing or embedding; caller frees. */
 char *kiln_json_dump(const json_t *doc);
 

@@ -36,6 +36,10 @@ struct kiln_walk_opts {
 /* Files skipped without a row (hidden files, OS junk), counted per kind. */
 struct kiln_walk_counts {
     size_t hidden, junk;
+    /* Folders under a source that are kiln outputs by content (their manifest.json says so,
+     * formats/files/owner.h): an output written inside a source is never catalogued. */
+    size_t outputs;
+    char first_output[256]; /* the byte-wise smallest one's relative name */
 };
 
 /* Receives each entry and owns e->data from then on. A non-OK return stops the walk. */

@@ -12,6 +12,7 @@
 
 #include "../../core/catalog.h"
 #include "../../core/checked.h"
+#include "../files/owner.h"
 #include "source.h"
 #include "walker.h"
 
@@ -111,6 +112,14 @@ static int walk_file(struct folder_walk *w, const char *rel, const char *full,
 
 static int walk_dir(struct folder_walk *w, const char *rel, struct kiln_err *err);
 
+/* A folder kiln wrote (its manifest.json says so): skipped, so that an output written inside
+ * a source is not catalogued by the next run. A manifest that cannot be read is not kiln's. */
+static bool is_kiln_output(const char *full)
+{
+    struct kiln_owner o;
+    return kiln_owner_of(full, &o, NULL) == KILN_OK && o.kind == KILN_OWNER_KILN;
+}
+
 static int walk_one(struct folder_walk *w, const char *rel, struct kiln_err *err)
 {
     char *full = join(w->root, rel);
@@ -140,7 +149,10 @@ static int walk_one(struct folder_walk *w, const char *rel, struct kiln_err *err
             return rc;
         }
     }
-    if (S_ISDIR(st.st_mode)) {
+    if (S_ISDIR(st.st_mode) && rel[0] && is_kiln_output(full)) {
+        if (w->counts && (!w->counts->outputs++ || strcmp(rel, w->counts->first_output) < 0))
+            snprintf(w->counts->first_output, sizeof w->counts->first_output, "%s", rel);
+    } else if (S_ISDIR(st.st_mode)) {
         for (size_t i = 0; i < w->depth; i++)
             if (w->stack[i].dev == st.st_dev && w->stack[i].ino == st.st_ino) {
                 rc = emit_status(w, rel, KILN_ST_LINK_LOOP,

@@ -1,7 +1,7 @@
 # A full disk is a failure of the output, not of an input: exit status 1, and the message names
-# the output file that could not be written (the record pool of build, a tensor file, items.csv,
-# catalog.csv, manifest.json, SHA256SUMS) -- never a source image. Nothing is left that claims
-# to be complete (verify fails), and no temporary file stays behind.
+# the output file that could not be written (the record pool of build, items.csv, catalog.csv,
+# manifest.json, SHA256SUMS, the replace's journal) -- never a source image. The earlier output
+# the run was to replace is exactly as it was and verifies, and no temporary file stays behind.
 #
 # Runs on a small tmpfs, which needs mount (root, and a container that allows it; CI runs as
 # root). The test re-runs itself in a private mount namespace when unshare works, so the mount
@@ -42,14 +42,19 @@ pages() {
     echo "$n"
 }
 
-# no_debris DIR: nothing of a failed run claims to be complete (verify fails), and no temporary
-# file stays.
-no_debris() {
-    local left got=0
-    "$KILN" verify "$1" >/dev/null 2>&1 || got=$?
-    [ "$got" != 0 ] || fail "a failed run left an output that verifies in $1: $(ls -A "$1" | tr '\n' ' ')"
-    left=$(ls -A "$1" 2>/dev/null || true)
-    [[ $left != *.tmp-* ]] || fail "temporary files left in $1: $left"
+# with_old DIR: DIR becomes a copy of an earlier output (snapshotted), which a failing run must
+# leave exactly as it was.
+with_old() {
+    rm -rf "$1"
+    cp -a "$disk/old" "$1"
+    snapshot "$1" >"$work/before"
+}
+
+# old_intact DIR: the earlier output is exactly as it was and verifies; no temporary file stays.
+old_intact() {
+    snapshot "$1" >"$work/after"
+    diff "$work/before" "$work/after" >&2 || fail "a failed run changed the earlier output in $1"
+    expect_exit 0 "$KILN" verify "$1"
 }
 
 # not_blamed: the message blames no source image.
@@ -59,13 +64,16 @@ not_blamed() {
     fi
 }
 
+expect_exit 0 "$KILN" pack "$work/c.csv" -o "$disk/old" --size 8 -q
+
 # 1. build: the record pool fills the disk during the scan.
+with_old "$disk/b"
 leave_free 64
 expect_exit 1 "$KILN" build "$work/data" -o "$disk/b" --seed 5 --size 256 -q
 grep -q "cannot write $disk/b/records.pool: No space left on device" "$work/stderr" ||
     fail "build on a full disk: $(cat "$work/stderr")"
 not_blamed
-no_debris "$disk/b"
+old_intact "$disk/b"
 
 # 2. pack, failing at each output in turn. A run with room measures what each file takes.
 rm -f "$disk/filler"
@@ -75,29 +83,33 @@ tensors=$(pages "$r/train.kten" "$r/val.kten" "$r/test.kten")
 items=$(pages "$r/items.csv")
 catalog=$(pages "$r/catalog.csv")
 manifest=$(pages "$r/manifest.json")
+sums=$(pages "$r/SHA256SUMS")
 rm -rf "$r"
 # free pages, then the file whose writing must fail, as the message names it
 # (no room for the tensor files at all: section 3)
 for case in "$tensors items.csv" \
     "$((tensors + items)) catalog.csv" \
     "$((tensors + items + catalog)) manifest.json" \
-    "$((tensors + items + catalog + manifest)) SHA256SUMS"; do
+    "$((tensors + items + catalog + manifest)) SHA256SUMS" \
+    "$((tensors + items + catalog + manifest + sums)) .kiln-journal"; do
     read -r free file <<<"$case"
+    with_old "$disk/out"
     leave_free "$free"
     expect_exit 1 "$KILN" pack "$work/c.csv" -o "$disk/out" --size 64 -q
     grep -q "cannot write $disk/out/$file: No space left on device" \
         "$work/stderr" || fail "with $free pages free, expected $file to be named: $(cat "$work/stderr")"
     not_blamed
-    no_debris "$disk/out"
-    rm -rf "$disk/out"
+    rm -f "$disk/filler"
+    old_intact "$disk/out"
 done
 
 # 3. Tensor files that cannot fit are refused before anything is reserved, in those terms.
 rm -f "$disk/filler"
+with_old "$disk/big"
 expect_exit 1 "$KILN" pack "$work/c.csv" -o "$disk/big" --size 1024 -q
 grep -Eq "cannot write the tensor files into $disk/big: they need [0-9.]+ MB \([0-9]+ bytes\) and its file system has [0-9.]+ MB free" \
     "$work/stderr" || fail "outputs larger than the free space: $(cat "$work/stderr")"
-[ -z "$(ls -A "$disk/big")" ] || fail "a pack that cannot fit wrote: $(ls -A "$disk/big")"
+old_intact "$disk/big"
 
 # 4. Room again: the same runs succeed and verify.
 rm -f "$disk/filler"

@@ -27,11 +27,16 @@ edit_json "$work/p.json" 'd["split"]["parts"] = 2'
 expect_exit 3 "$KILN" pack "$work/p.csv" -o "$work/p" --size 8
 grep -Eq "catalogue row [0-9]+ \(.*\) is in val, but the catalogue's split record says the split has 2 parts" \
     "$work/stderr" || fail "parts 2 with val rows: $(cat "$work/stderr")"
-edit_json "$work/p.json" 'd["split"]["parts"] = "three"'
-expect_exit 3 "$KILN" pack "$work/p.csv" -o "$work/p" --size 8
-grep -q 'gives "parts" as "three"; a split has 2 parts' "$work/stderr" ||
-    fail "parts \"three\": $(cat "$work/stderr")"
 [ ! -e "$work/p" ] || [ -z "$(ls -A "$work/p")" ] || fail "a refused pack wrote into its folder"
+edit_json "$work/p.json" 'd["split"]["parts"] = 1'
+expect_exit 3 "$KILN" pack "$work/p.csv" -o "$work/p" --size 8
+grep -q "the catalogue's split record says the split has 1 parts; a split has 2 (train:test) or 3" \
+    "$work/stderr" || fail "parts 1: $(cat "$work/stderr")"
+# A record that cannot be read at all is left out, with a warning that says why.
+edit_json "$work/p.json" 'd["split"]["parts"] = "three"'
+expect_exit 0 "$KILN" pack "$work/p.csv" -o "$work/p" --size 8 -q
+grep -q "p.json: the split record has no number 'parts'" "$work/stderr" ||
+    fail "parts \"three\": $(cat "$work/stderr")"
 
 # 2. A byte-order mark before the header changes nothing: the same tensor bytes.
 expect_exit 0 "$KILN" pack "$work/c.csv" -o "$work/plain" --size 8 -q

@@ -1,16 +1,32 @@
 # SIGTERM and SIGINT end a run cleanly: every temporary file of the run -- the tensor files
 # reserved whole at the start of a pack, build's record pool -- is removed before the process
-# ends by the signal (the shell sees 128 + its number: 143, 130), and the message says how many
-# files and bytes went (checked against stat just before the signal). A signal the process was
-# started with ignored (as nohup does for SIGHUP) stays ignored.
+# ends by the signal (the shell sees 128 + its number: 143, 130), the message says how many
+# files and bytes went (checked against stat just before the signal), and the earlier output
+# the run was to replace is exactly as it was and verifies. A signal the process was started
+# with ignored (as nohup does for SIGHUP) stays ignored.
 . "$(dirname "$0")/lib.sh"
 demo_data "$work/data"
 expect_exit 0 "$KILN" scan "$work/data" -o "$work/c.csv" -q
 expect_exit 0 "$KILN" split "$work/c.csv" --seed 5 -q
 
+expect_exit 0 "$KILN" pack "$work/c.csv" -o "$work/old" --size 16 -q
+
 # when_frozen PID: the count and bytes of the run's temporary files, by stat, into $seen.
 when_frozen() { seen=$(sizes_of "$out/.*.tmp-$1-*"); }
-before_try() { rm -rf "$out"; }
+# Each run replaces an earlier output, snapshotted.
+before_try() {
+    rm -rf "$out"
+    cp -a "$work/old" "$out"
+    snapshot "$out" >"$work/before"
+}
+
+# old_output_intact: the earlier output is exactly as it was (entries, inodes, bytes) and
+# verifies.
+old_output_intact() {
+    snapshot "$out" >"$work/after"
+    diff "$work/before" "$work/after" >&2 || fail "the interrupted run changed the earlier output"
+    expect_exit 0 "$KILN" verify "$out"
+}
 
 # check_report N BYTES: the message names the signal, the files and bytes removed.
 check_report() {
@@ -29,8 +45,7 @@ signal_when_seen TERM "$out/.test.kten.tmp-*" \
 read -r n b <<<"$seen"
 [ "$n" -ge 3 ] && [ "$b" -gt 100000000 ] || fail "expected three reserved tensor files, saw $seen"
 check_report SIGTERM "$n" "$b"
-left=$(ls -A "$out")
-[ -z "$left" ] || fail "the interrupted pack left files: $left"
+old_output_intact
 
 # 2. build interrupted with SIGINT (Ctrl-C) during its scan: the record pool goes too.
 out="$work/b"
@@ -40,8 +55,7 @@ signal_when_seen INT "$out/.records.pool.tmp-*" \
 read -r n b <<<"$seen"
 [ "$n" -ge 1 ] || fail "the build had no record pool when it was interrupted"
 check_report SIGINT "$n" "$b"
-left=$(ls -A "$out")
-[ -z "$left" ] || fail "the interrupted build left files: $left"
+old_output_intact
 
 # 3. Started with SIGHUP ignored (nohup), kiln keeps ignoring it and finishes.
 out="$work/h"

@@ -156,3 +156,10 @@ print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss, r.returncode)
 ' "$work/stdout" "$work/stderr" "$@") || fail "could not run $*"
     read -r rss_kib status <<<"$out"
 }
+
+# snapshot DIR: every entry of DIR with its inode and size, then every file's SHA-256: what
+# "exactly as it was" is compared on.
+snapshot() {
+    (cd "$1" && find . -mindepth 1 -printf '%p %i %s\n' | LC_ALL=C sort &&
+        find . -type f -print0 | LC_ALL=C sort -z | xargs -0 -r sha256sum)
+}

@@ -482,7 +482,7 @@ RECIPE = {"size": "32x24", "fit": "pad", "filter": "lanczos3", "channels": 3, "d
 def manifest_seeds():
     outputs = [{"name": n, "bytes": 10 * i + 1, "sha256": hashlib.sha256(n.encode()).hexdigest()}
                for i, n in enumerate(["train.kten", "val.kten", "items.csv", "catalog.csv"])]
-    m = {"format": "kiln manifest", "version": 1, "recipe": RECIPE, "seed": 7, "outputs": outputs,
+    m = {"format": "kiln output manifest", "version": 1, "recipe": RECIPE, "seed": 7, "outputs": outputs,
          "classes": ["a", "b"]}
     sums = "".join(f"{o['sha256']}  {o['name']}\n" for o in outputs).encode()
     m2 = dict(m, recipe=dict(RECIPE, fit="crop", filter="bilinear", channels=1, depth=16,
@@ -493,8 +493,9 @@ def manifest_seeds():
 
 
 def keep_seeds():
-    m = {"recipe": RECIPE, "outputs": [{"name": "train.kten", "sha256": "0" * 64},
-                                       {"name": "items.csv", "sha256": "@ITEMS_SHA256@"}]}
+    m = {"format": "kiln output manifest", "recipe": RECIPE,
+         "outputs": [{"name": "train.kten", "sha256": "0" * 64},
+                     {"name": "items.csv", "sha256": "@ITEMS_SHA256@"}]}
     sha = [hashlib.sha256(bytes([i])).hexdigest() for i in range(4)]
     items = ("row,source,path,member,size,sha256,label,class,group,unit,split,index,status,reason\r\n"
              f"0,d,a.png,,3,{sha[0]},a,0,,00000000000000aa,train,0,ok,\r\n"

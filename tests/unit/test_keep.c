@@ -52,7 +52,10 @@ static void write_output(const char *items_text)
     kiln_sha256_hex(d, hex);
     f = fopen(manifest, "wb");
     assert_non_null(f);
-    fprintf(f, "{\"outputs\": [{\"name\": \"items.csv\", \"sha256\": \"%s\"}]}\n", hex);
+    fprintf(f,
+            "{\"format\": \"kiln output manifest\", \"outputs\": [{\"name\": \"items.csv\", "
+            "\"sha256\": \"%s\"}]}\n",
+            hex);
     assert_int_equal(fclose(f), 0);
 }
 
@@ -117,6 +120,14 @@ static void test_refusals(void **state)
     assert_int_equal(fclose(f), 0);
     assert_int_equal(kiln_keep_load(manifest, &k, &err), KILN_EMISMATCH);
     assert_non_null(strstr(err.msg, "does not match"));
+    /* a manifest.json that is not kiln's (a web project's) is named as such */
+    f = fopen(manifest, "wb");
+    assert_non_null(f);
+    fputs("{\"manifest_version\": 3, \"name\": \"site\", \"outputs\": []}\n", f);
+    assert_int_equal(fclose(f), 0);
+    assert_int_equal(kiln_keep_load(manifest, &k, &err), KILN_EINVAL);
+    assert_non_null(strstr(err.msg, "is not a kiln manifest: it has no \"format\": \"kiln output "
+                                    "manifest\" (its keys: manifest_version, name, outputs)"));
 }
 
 int main(void)
