@@ -116,6 +116,32 @@ static void fill_pad(const struct kiln_recipe *r, void *out)
     }
 }
 
+/* After resampling (cur is p->a or p->b): depth, a late grey-to-colour widening, the frame. */
+static int finish(struct kiln_prep *p, const struct kiln_recipe *r, struct kiln_image *cur,
+                  bool widen_late, const struct kiln_fit_geometry *g, void *out,
+                  struct kiln_err *err)
+{
+    int rc;
+    if (cur->depth != r->depth) {
+        struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
+        rc = kiln_convert_depth(cur, r->depth, dst, err);
+        if (rc)
+            return rc;
+        cur = dst;
+    }
+    if (widen_late) {
+        struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
+        rc = kiln_convert_channels(cur, r->channels, r->background, dst, err);
+        if (rc)
+            return rc;
+        cur = dst;
+    }
+    if (g->inner_w != r->width || g->inner_h != r->height)
+        fill_pad(r, out);
+    place(cur, r, g->off_x, g->off_y, out);
+    return KILN_OK;
+}
+
 int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct kiln_image *img,
                      const struct kiln_prep_source *src, void *out, struct kiln_err *err)
 {
@@ -158,22 +184,74 @@ int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct ki
             return rc;
         cur = dst;
     }
-    if (cur->depth != r->depth) {
-        struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
-        rc = kiln_convert_depth(cur, r->depth, dst, err);
+    return finish(p, r, cur, widen_late, &g, out, err);
+}
+
+/* ---- row by row --------------------------------------------------------------------------- */
+
+bool kiln_prep_streams(const struct kiln_recipe *r, const struct kiln_prep_source *src)
+{
+    return src->denom == 1 && !src->oriented && applied_orientation(r, src->orientation) <= 4;
+}
+
+int kiln_prep_stream_begin(struct kiln_prep *p, const struct kiln_recipe *r,
+                           const struct kiln_prep_source *src, unsigned channels,
+                           unsigned depth, struct kiln_err *err)
+{
+    if (!kiln_prep_streams(r, src))
+        return kiln_err_set(err, KILN_EINTERNAL, "a %ux%u picture with orientation %u cannot be "
+                                                 "prepared row by row",
+                            src->width, src->height, src->orientation);
+    const uint32_t o = applied_orientation(r, src->orientation);
+    p->s_recipe = r;
+    p->s_height = src->height;
+    p->s_flip_x = o == 2 || o == 3;
+    p->s_flip_y = o == 3 || o == 4;
+    p->s_widen_late = channels == 1 && r->channels >= 3;
+    p->s_convert = channels != r->channels && !p->s_widen_late;
+    kiln_fit_compute(src->width, src->height, r->width, r->height, r->fit, &p->s_geom);
+    /* One stored row, its mirror image and its channel conversion. */
+    int rc = kiln_image_reshape(&p->a, src->width, 1, channels, depth, err);
+    if (!rc)
+        rc = kiln_image_reshape(&p->b, src->width, 1, p->s_convert ? r->channels : channels, depth,
+                                err);
+    if (!rc)
+        rc = kiln_resize_rows_begin(&p->rs, src->width, src->height,
+                                    p->s_convert ? r->channels : channels, depth, &p->s_geom.src,
+                                    p->s_geom.inner_w, p->s_geom.inner_h, r->filter, err);
+    return rc;
+}
+
+int kiln_prep_stream_row(struct kiln_prep *p, uint32_t y, const void *row, struct kiln_err *err)
+{
+    /* The orientations without a transpose move rows and pixels within rows, which commutes
+     * with the per-pixel channel conversion and with the horizontal pass: each stored row is one
+     * row of the oriented picture. */
+    const struct kiln_image *cur = &p->a;
+    const size_t px = (size_t)p->a.channels * (p->a.depth / 8);
+    if (p->s_flip_x) {
+        const uint8_t *s = row;
+        uint8_t *d = p->a.data;
+        for (uint32_t x = 0; x < p->a.width; x++)
+            memcpy(d + (size_t)x * px, s + (size_t)(p->a.width - 1 - x) * px, px);
+    } else {
+        memcpy(p->a.data, row, p->a.stride);
+    }
+    if (p->s_convert) {
+        int rc = kiln_convert_channels(cur, p->s_recipe->channels, p->s_recipe->background, &p->b,
+                                       err);
         if (rc)
             return rc;
-        cur = dst;
+        cur = &p->b;
     }
-    if (widen_late) {
-        struct kiln_image *dst = cur == &p->a ? &p->b : &p->a;
-        rc = kiln_convert_channels(cur, r->channels, r->background, dst, err);
-        if (rc)
-            return rc;
-        cur = dst;
-    }
-    if (g.inner_w != r->width || g.inner_h != r->height)
-        fill_pad(r, out);
-    place(cur, r, g.off_x, g.off_y, out);
+    kiln_resize_rows_put(&p->rs, p->s_flip_y ? p->s_height - 1 - y : y, cur->data);
     return KILN_OK;
+}
+
+int kiln_prep_stream_end(struct kiln_prep *p, void *out, struct kiln_err *err)
+{
+    int rc = kiln_resize_rows_end(&p->rs, &p->a, err);
+    if (!rc)
+        rc = finish(p, p->s_recipe, &p->a, p->s_widen_late, &p->s_geom, out, err);
+    return rc;
 }

@@ -11,10 +11,15 @@
 #include "recipe.h"
 #include "resize.h"
 
-/* Per-worker scratch: two ping-pong images and a resampler. */
+/* Per-worker scratch: two ping-pong images and a resampler; and what a row-by-row preparation
+ * (kiln_prep_stream_*) keeps between its calls. */
 struct kiln_prep {
     struct kiln_image a, b;
     struct kiln_resizer rs;
+    const struct kiln_recipe *s_recipe;
+    uint32_t s_height;
+    bool s_flip_x, s_flip_y, s_convert, s_widen_late;
+    struct kiln_fit_geometry s_geom;
 };
 
 void kiln_prep_init(struct kiln_prep *p);
@@ -42,5 +47,18 @@ struct kiln_prep_source {
  * reduced decode changes no geometry. KILN_EINTERNAL when img's size does not match src. */
 int kiln_prep_record(struct kiln_prep *p, const struct kiln_recipe *r, struct kiln_image *img,
                      const struct kiln_prep_source *src, void *out, struct kiln_err *err);
+
+/* Row by row, for a picture too large to decode whole: the same record, bit for bit, as
+ * kiln_prep_record on the whole decoded picture, holding about one row of it plus the
+ * resampler's intermediate rows (out width x picture height samples). Possible when the pixels
+ * are full size (denom 1) and the orientation applied needs no transpose (1 to 4): that is what
+ * kiln_prep_streams says. _begin takes the stored picture's channels and depth; _row takes
+ * stored row y (0 to height - 1, each once, in any order), packed; _end writes the record. */
+bool kiln_prep_streams(const struct kiln_recipe *r, const struct kiln_prep_source *src);
+int kiln_prep_stream_begin(struct kiln_prep *p, const struct kiln_recipe *r,
+                           const struct kiln_prep_source *src, unsigned channels,
+                           unsigned depth, struct kiln_err *err);
+int kiln_prep_stream_row(struct kiln_prep *p, uint32_t y, const void *row, struct kiln_err *err);
+int kiln_prep_stream_end(struct kiln_prep *p, void *out, struct kiln_err *err);
 
 #endif

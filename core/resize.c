@@ -357,6 +357,42 @@ int kiln_resize(struct kiln_resizer *r, const struct kiln_image *in, const struc
     return kiln_resize_grid(r, in, NULL, box, out_w, out_h, filter, out, err);
 }
 
+/* The coefficient tables for an in_w x in_h input (kept from the last call when it had the
+ * same geometry), and the input rows [*y0, *y1) some output row reads. */
+static int setup_axes(struct kiln_resizer *r, uint32_t in_w, uint32_t in_h,
+                      const struct kiln_grid *grid, const struct kiln_box *box, uint32_t out_w,
+                      uint32_t out_h, int filter, uint32_t *y0, uint32_t *y1,
+                      struct kiln_err *err)
+{
+    uint32_t key[10] = {in_w,   in_h,   box->x,           box->y,       box->w,
+                        box->h, (uint32_t)filter, grid->denom, grid->shift_x, grid->shift_y};
+    if (!r->valid || memcmp(key, r->key, sizeof key) != 0 || r->x.out_size != out_w ||
+        r->y.out_size != out_h) {
+        kiln_resize_axis_free(&r->x);
+        kiln_resize_axis_free(&r->y);
+        r->valid = false;
+        int rc = kiln_resize_axis_init(&r->x, in_w, grid->denom, grid->shift_x, box->x, box->w,
+                                       out_w, filter, err);
+        if (!rc)
+            rc = kiln_resize_axis_init(&r->y, in_h, grid->denom, grid->shift_y, box->y, box->h,
+                                       out_h, filter, err);
+        if (rc)
+            return rc;
+        memcpy(r->key, key, sizeof key);
+        r->valid = true;
+    }
+    /* Only the input rows some output row reads go through the horizontal pass. */
+    *y0 = r->y.first[0];
+    *y1 = 0;
+    for (uint32_t i = 0; i < out_h; i++) {
+        if (r->y.first[i] < *y0)
+            *y0 = r->y.first[i];
+        if (r->y.first[i] + r->y.count[i] > *y1)
+            *y1 = r->y.first[i] + r->y.count[i];
+    }
+    return KILN_OK;
+}
+
 int kiln_resize_grid(struct kiln_resizer *r, const struct kiln_image *in,
                      const struct kiln_grid *grid, const struct kiln_box *box, uint32_t out_w,
                      uint32_t out_h, int filter, struct kiln_image *out, struct kiln_err *err)
@@ -367,35 +403,14 @@ int kiln_resize_grid(struct kiln_resizer *r, const struct kiln_image *in,
     struct kiln_box whole = {0, 0, in->width, in->height};
     if (!box)
         box = &whole;
-    uint32_t key[10] = {in->width, in->height, box->x,         box->y,         box->w,
-                        box->h,    (uint32_t)filter, grid->denom, grid->shift_x, grid->shift_y};
-    if (!r->valid || memcmp(key, r->key, sizeof key) != 0 || r->x.out_size != out_w ||
-        r->y.out_size != out_h) {
-        kiln_resize_axis_free(&r->x);
-        kiln_resize_axis_free(&r->y);
-        r->valid = false;
-        int rc = kiln_resize_axis_init(&r->x, in->width, grid->denom, grid->shift_x, box->x,
-                                       box->w, out_w, filter, err);
-        if (!rc)
-            rc = kiln_resize_axis_init(&r->y, in->height, grid->denom, grid->shift_y, box->y,
-                                       box->h, out_h, filter, err);
-        if (rc)
-            return rc;
-        memcpy(r->key, key, sizeof key);
-        r->valid = true;
-    }
-    /* Only the input rows some output row reads go through the horizontal pass. */
-    uint32_t y0 = r->y.first[0], y1 = 0;
-    for (uint32_t i = 0; i < out_h; i++) {
-        if (r->y.first[i] < y0)
-            y0 = r->y.first[i];
-        if (r->y.first[i] + r->y.count[i] > y1)
-            y1 = r->y.first[i] + r->y.count[i];
-    }
+    uint32_t y0, y1;
+    int rc = setup_axes(r, in->width, in->height, grid, box, out_w, out_h, filter, &y0, &y1, err);
+    if (rc)
+        return rc;
     const bool same_grid = grid->denom == 1;
     const bool need_x = !(same_grid && out_w == in->width && box->x == 0 && box->w == in->width);
     const bool need_y = !(same_grid && out_h == in->height && box->y == 0 && box->h == in->height);
-    int rc = kiln_image_reshape(out, out_w, out_h, in->channels, in->depth, err);
+    rc = kiln_image_reshape(out, out_w, out_h, in->channels, in->depth, err);
     if (rc)
         return rc;
     if (!need_x && !need_y) {
@@ -420,6 +435,67 @@ int kiln_resize_grid(struct kiln_resizer *r, const struct kiln_image *in,
     if (!kiln_grow((void **)&r->acc, &r->acc_cap, n, sizeof *r->acc))
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a resample row");
     vpass(&r->y, vin, row0, r->acc, out);
+    return KILN_OK;
+}
+
+int kiln_resize_rows_begin(struct kiln_resizer *r, uint32_t in_w, uint32_t in_h,
+                           unsigned channels, unsigned depth, const struct kiln_box *box,
+                           uint32_t out_w, uint32_t out_h, int filter, struct kiln_err *err)
+{
+    static const struct kiln_grid same = {1, 0, 0};
+    struct kiln_box whole = {0, 0, in_w, in_h};
+    if (!box)
+        box = &whole;
+    uint32_t y0, y1;
+    int rc = setup_axes(r, in_w, in_h, &same, box, out_w, out_h, filter, &y0, &y1, err);
+    if (rc)
+        return rc;
+    r->rows_w = in_w;
+    r->rows_h = in_h;
+    r->rows_channels = channels;
+    r->rows_depth = depth;
+    r->rows_need_x = !(out_w == in_w && box->x == 0 && box->w == in_w);
+    r->rows_need_y = !(out_h == in_h && box->y == 0 && box->h == in_h);
+    /* Without a vertical pass every row is kept (there are out_h of them); with one, the rows
+     * it reads, as kiln_resize_grid holds them between its passes. */
+    r->rows_y0 = r->rows_need_y ? y0 : 0;
+    r->rows_y1 = r->rows_need_y ? y1 : in_h;
+    return kiln_image_reshape(&r->tmp, r->rows_need_x ? out_w : in_w, r->rows_y1 - r->rows_y0,
+                              channels, depth, err);
+}
+
+void kiln_resize_rows_put(struct kiln_resizer *r, uint32_t y, const void *row)
+{
+    if (y < r->rows_y0 || y >= r->rows_y1)
+        return;
+    uint8_t *dst = (uint8_t *)r->tmp.data + (size_t)(y - r->rows_y0) * r->tmp.stride;
+    const struct kiln_image in = {r->rows_w, 1, r->rows_channels, r->rows_depth,
+                                  (size_t)r->rows_w * r->rows_channels * (r->rows_depth / 8),
+                                  (void *)row, 0};
+    if (!r->rows_need_x) {
+        memcpy(dst, row, in.stride);
+        return;
+    }
+    struct kiln_image out = r->tmp;
+    out.height = 1;
+    out.data = dst;
+    hpass(&r->x, &in, 0, 1, &out);
+}
+
+int kiln_resize_rows_end(struct kiln_resizer *r, struct kiln_image *out, struct kiln_err *err)
+{
+    if (!r->rows_need_y) {
+        kiln_image_swap(out, &r->tmp);
+        return KILN_OK;
+    }
+    int rc = kiln_image_reshape(out, r->x.out_size, r->y.out_size, r->rows_channels,
+                                r->rows_depth, err);
+    if (rc)
+        return rc;
+    size_t n = (size_t)r->tmp.width * r->tmp.channels;
+    if (!kiln_grow((void **)&r->acc, &r->acc_cap, n, sizeof *r->acc))
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a resample row");
+    vpass(&r->y, &r->tmp, r->rows_y0, r->acc, out);
     return KILN_OK;
 }
 

@@ -76,6 +76,11 @@ struct kiln_resizer {
     int64_t *acc;
     size_t acc_cap;
     struct kiln_image tmp;
+    /* Row by row (kiln_resize_rows_*): the input's shape, the input rows the vertical pass
+     * reads [rows_y0, rows_y1), and which passes run. */
+    uint32_t rows_w, rows_h, rows_y0, rows_y1;
+    unsigned rows_channels, rows_depth;
+    bool rows_need_x, rows_need_y;
 };
 
 void kiln_resizer_init(struct kiln_resizer *r);
@@ -93,6 +98,18 @@ int kiln_resize(struct kiln_resizer *r, const struct kiln_image *in, const struc
 int kiln_resize_grid(struct kiln_resizer *r, const struct kiln_image *in,
                      const struct kiln_grid *grid, const struct kiln_box *box, uint32_t out_w,
                      uint32_t out_h, int filter, struct kiln_image *out, struct kiln_err *err);
+
+/* The same as kiln_resize on an in_w x in_h image of the given channels and depth, given one
+ * row at a time (in any order), so that only the horizontal pass's output of the rows the
+ * vertical pass reads is held -- out_w x (about in_h) samples instead of the whole image, for a
+ * picture too large to decode whole. The result is bit for bit kiln_resize's. _begin sets up
+ * (KILN_ENOMEM, KILN_EINVAL); _put takes input row y (in_w pixels, packed), ignoring rows no
+ * output reads; _end writes the result to out (reshaped). */
+int kiln_resize_rows_begin(struct kiln_resizer *r, uint32_t in_w, uint32_t in_h,
+                           unsigned channels, unsigned depth, const struct kiln_box *box,
+                           uint32_t out_w, uint32_t out_h, int filter, struct kiln_err *err);
+void kiln_resize_rows_put(struct kiln_resizer *r, uint32_t y, const void *row);
+int kiln_resize_rows_end(struct kiln_resizer *r, struct kiln_image *out, struct kiln_err *err);
 
 enum kiln_fit { KILN_FIT_STRETCH = 0, KILN_FIT_PAD, KILN_FIT_CROP, KILN_FIT_COUNT };
 const char *kiln_fit_name(int fit);

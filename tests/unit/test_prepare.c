@@ -313,6 +313,101 @@ static void test_size_mismatch(void **state)
     kiln_prep_free(&p);
 }
 
+/* An image with distinct, irregular samples (a counter-based hash), so any misplaced pixel,
+ * row or channel shows in the record. */
+static void fill_image(struct kiln_image *img, uint32_t w, uint32_t h, unsigned ch, unsigned depth,
+                       uint32_t seed)
+{
+    struct kiln_err err = {0};
+    assert_int_equal(kiln_image_reshape(img, w, h, ch, depth, &err), KILN_OK);
+    const size_t n = (size_t)w * h * ch;
+    for (size_t i = 0; i < n; i++) {
+        uint64_t z = (i + 1) * 0x9E3779B97F4A7C15ull ^ seed;
+        z = (z ^ (z >> 29)) * 0xBF58476D1CE4E5B9ull;
+        z ^= z >> 32;
+        if (depth == 8)
+            ((uint8_t *)img->data)[i] = (uint8_t)z;
+        else
+            ((uint16_t *)img->data)[i] = (uint16_t)z;
+    }
+}
+
+/* Row by row gives the record the whole picture gives, bit for bit: every orientation without a
+ * transpose (and orientation ignored), every stored channel count into 1, 3 and 4 channels,
+ * 8 and 16 bits both ways, every filter and fit, both layouts, down, up and same size, odd
+ * sizes; rows handed over from the bottom up, so order does not matter. */
+static void test_stream_matches_whole(void **state)
+{
+    (void)state;
+    static const uint32_t sizes[][4] = {{37, 23, 8, 11}, {7, 5, 16, 13}, {37, 23, 37, 23},
+                                        {1, 29, 3, 4}, {53, 1, 5, 2}};
+    struct kiln_prep whole, rows;
+    kiln_prep_init(&whole);
+    kiln_prep_init(&rows);
+    struct kiln_image img, copy;
+    memset(&img, 0, sizeof img);
+    memset(&copy, 0, sizeof copy);
+    size_t checked = 0;
+    for (size_t sz = 0; sz < sizeof sizes / sizeof sizes[0]; sz++)
+        for (unsigned o = 1; o <= 4; o++)
+            for (unsigned ich = 1; ich <= 4; ich++)
+                for (unsigned odepth = 8; odepth <= 16; odepth += 8)
+                    for (int filter = 0; filter < KILN_FILTER_COUNT; filter++)
+                        for (int fit = 0; fit < KILN_FIT_COUNT; fit++) {
+                            const unsigned ich_depth = (filter + fit + ich) % 2 ? 16 : 8;
+                            const unsigned rch = (unsigned[]){1, 3, 4}[(o + filter + fit) % 3];
+                            struct kiln_recipe r = recipe(sizes[sz][2], sizes[sz][3], fit, filter);
+                            r.channels = rch;
+                            r.depth = odepth;
+                            r.dtype = -1;
+                            r.layout = (o + ich) % 2 ? KILN_LAYOUT_NCHW : KILN_LAYOUT_NHWC;
+                            r.orient = o != 4 || ich != 2; /* sometimes ignored */
+                            struct kiln_err err = {0};
+                            assert_int_equal(kiln_recipe_finish(&r, &err), KILN_OK);
+                            const uint32_t w = sizes[sz][0], h = sizes[sz][1];
+                            fill_image(&img, w, h, ich, ich_depth, (uint32_t)(sz * 131 + o));
+                            fill_image(&copy, w, h, ich, ich_depth, (uint32_t)(sz * 131 + o));
+                            const struct kiln_prep_source src = {w, h, 1, o, false};
+                            assert_true(kiln_prep_streams(&r, &src));
+                            const size_t bytes = kiln_recipe_record_bytes(&r);
+                            uint8_t *a = malloc(bytes), *b = malloc(bytes);
+                            assert_non_null(a);
+                            assert_non_null(b);
+                            assert_int_equal(kiln_prep_record(&whole, &r, &copy, &src, a, &err),
+                                             KILN_OK);
+                            assert_int_equal(
+                                kiln_prep_stream_begin(&rows, &r, &src, ich, ich_depth, &err),
+                                KILN_OK);
+                            for (uint32_t y = h; y-- > 0;)
+                                assert_int_equal(
+                                    kiln_prep_stream_row(&rows, y,
+                                                         (uint8_t *)img.data + y * img.stride,
+                                                         &err),
+                                    KILN_OK);
+                            assert_int_equal(kiln_prep_stream_end(&rows, b, &err), KILN_OK);
+                            if (memcmp(a, b, bytes) != 0)
+                                fail_msg("%ux%u x%u d%u orientation %u -> %ux%u x%u d%u filter %d "
+                                         "fit %d: row by row differs",
+                                         w, h, ich, ich_depth, o, r.width, r.height, rch, odepth,
+                                         filter, fit);
+                            free(a);
+                            free(b);
+                            checked++;
+                        }
+    assert_int_equal(checked, 5 * 4 * 4 * 2 * KILN_FILTER_COUNT * KILN_FIT_COUNT);
+    /* A transpose or a reduced decode cannot go row by row. */
+    struct kiln_recipe r = recipe(8, 8, KILN_FIT_STRETCH, KILN_FILTER_BILINEAR);
+    for (unsigned o = 5; o <= 8; o++)
+        assert_false(kiln_prep_streams(&r, &(struct kiln_prep_source){9, 9, 1, o, false}));
+    assert_false(kiln_prep_streams(&r, &(struct kiln_prep_source){9, 9, 2, 1, false}));
+    r.orient = false;
+    assert_true(kiln_prep_streams(&r, &(struct kiln_prep_source){9, 9, 1, 6, false}));
+    kiln_image_free(&img);
+    kiln_image_free(&copy);
+    kiln_prep_free(&whole);
+    kiln_prep_free(&rows);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -320,6 +415,7 @@ int main(void)
         cmocka_unit_test(test_reduced_geometry_orientations),
         cmocka_unit_test(test_reduced_orientation_symmetry),
         cmocka_unit_test(test_size_mismatch),
+        cmocka_unit_test(test_stream_matches_whole),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
