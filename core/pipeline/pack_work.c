@@ -18,6 +18,7 @@ struct pack_worker {
     uint8_t *record;
     struct kiln_stats stats[KILN_NSPLITS];
     size_t dct_reduced;
+    struct kiln_err row_err; /* a failure of the record chain while a decoder hands rows over */
 };
 
 /* Statistics see the integer record; in CHW layout the channels are planes, so each plane is
@@ -41,6 +42,36 @@ static int add_record_stats(struct kiln_stats *st, const struct kiln_recipe *r,
             rc = kiln_stats_merge(st, &wide, e);
         }
     }
+    return rc;
+}
+
+/* A picture whose decode would take more than this goes row by row when its decoder and the
+ * recipe allow (kiln_prep_streams): memory then follows what the resampler keeps, not the
+ * picture (a 20000 x 20000 RGBA PNG: 1.6 GB whole). Below it, whole decodes are faster. */
+#define PACK_ROWS_ABOVE ((uint64_t)32 << 20)
+
+static int put_row(void *ctx, uint32_t y, const void *pixels)
+{
+    struct pack_worker *w = ctx;
+    return kiln_prep_stream_row(&w->prep, y, pixels, &w->row_err);
+}
+
+/* The record of a large picture from its rows; KILN_DECODE_ROWS_DECLINED when the decoder
+ * cannot give this file so. */
+static int prepare_by_rows(struct pack_worker *w, const struct kiln_decoder *dec,
+                           const struct pack_job *j, const struct kiln_image_info *info,
+                           const struct kiln_prep_source *src, struct kiln_err *e)
+{
+    const struct kiln_recipe *r = &w->run->o->recipe;
+    int rc = kiln_prep_stream_begin(&w->prep, r, src, info->channels, info->depth, e);
+    if (rc)
+        return rc;
+    kiln_err_clear(&w->row_err);
+    rc = dec->decode_rows(j->data, j->size, info, put_row, w, e);
+    if (rc && rc != KILN_DECODE_ROWS_DECLINED && w->row_err.code)
+        *e = w->row_err; /* the preparation's failure, not the decoder's */
+    if (!rc)
+        rc = kiln_prep_stream_end(&w->prep, w->record, e);
     return rc;
 }
 
@@ -70,19 +101,25 @@ static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln
         rc = kiln_err_set(e, KILN_ETOOLARGE, "%ux%u is outside the limits", info.width,
                           info.height);
     uint32_t denom = 1;
-    if (!rc) {
+    if (!rc)
         denom = kiln_prep_choose_denom(r, info.width, info.height, info.orientation,
                                        info.max_scale_denom);
-        rc = kiln_decoded_shape(&info, denom, &w->img, e);
-    }
     info.trusted = 1; /* the SHA-256 check above passed */
-    if (!rc)
-        rc = dec->decode(j->data, j->size, &info, denom, &w->img, e);
-    if (!rc) {
-        const struct kiln_prep_source src = {info.width, info.height, denom, info.orientation,
-                                             false};
-        rc = kiln_prep_record(&w->prep, r, &w->img, &src, w->record, e);
+    const struct kiln_prep_source src = {info.width, info.height, denom, info.orientation, false};
+    bool whole = true;
+    if (!rc && dec->decode_rows && kiln_prep_streams(r, &src) &&
+        (uint64_t)info.width * info.height * info.channels * (info.depth / 8) > PACK_ROWS_ABOVE) {
+        rc = prepare_by_rows(w, dec, j, &info, &src, e);
+        whole = rc == KILN_DECODE_ROWS_DECLINED;
+        if (whole)
+            rc = KILN_OK;
     }
+    if (!rc && whole)
+        rc = kiln_decoded_shape(&info, denom, &w->img, e);
+    if (!rc && whole)
+        rc = dec->decode(j->data, j->size, &info, denom, &w->img, e);
+    if (!rc && whole)
+        rc = kiln_prep_record(&w->prep, r, &w->img, &src, w->record, e);
     if (rc) {
         kiln_err_prefix(e, "%s", kiln_pack_item_name(it, name, sizeof name));
         return rc;

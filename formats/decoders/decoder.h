@@ -32,6 +32,8 @@ struct kiln_decode_limits {
     uint32_t max_side;
 };
 
+#define KILN_DECODE_ROWS_DECLINED (-1)
+
 struct kiln_decoder {
     const char *name; /* "png", "jpeg", ...: what catalog.csv records */
     /* Returns a bid: 0 = not this format, higher = more certain. Looks at the first bytes only
@@ -45,6 +47,15 @@ struct kiln_decoder {
      * Rows are written straight into out->data. */
     int (*decode)(const uint8_t *data, size_t len, const struct kiln_image_info *info,
                   uint32_t scale_denom, struct kiln_image *out, struct kiln_err *err);
+    /* Optional (NULL when the format has none): decodes the first image at full size one row
+     * at a time, in order, each row shaped as decode's (info's channels and depth, packed),
+     * handed to row(ctx, y, pixels), so a picture too large to hold whole costs one row. A
+     * non-zero return of row stops the decode and is returned. KILN_DECODE_ROWS_DECLINED (out
+     * of band, not a kiln_code) when this file cannot be read so (an interlaced PNG): decode
+     * it whole instead. */
+    int (*decode_rows)(const uint8_t *data, size_t len, const struct kiln_image_info *info,
+                       int (*row)(void *ctx, uint32_t y, const void *pixels), void *ctx,
+                       struct kiln_err *err);
     /* The library doing the work ("libpng") and its run-time version, or NULL for decoders
      * written in kiln itself. */
     const char *library;

@@ -216,6 +216,64 @@ static int png_decode_fn(const uint8_t *data, size_t len, const struct kiln_imag
     return KILN_OK;
 }
 
+static int png_decode_rows_fn(const uint8_t *data, size_t len,
+                              const struct kiln_image_info *want,
+                              int (*row)(void *ctx, uint32_t y, const void *pixels), void *ctx,
+                              struct kiln_err *err)
+{
+    struct png_ctx c;
+    int rc = png_open(&c, data, len, err);
+    if (rc)
+        return rc;
+    uint8_t *volatile buf = NULL; /* survives the longjmp of a libpng error */
+    if (setjmp(c.jump)) {
+        free(buf);
+        png_close(&c);
+        return err ? err->code : KILN_ECORRUPT;
+    }
+    png_set_user_limits(c.png, want->width, want->height);
+    if (want->trusted) { /* as in png_decode_fn */
+        png_set_crc_action(c.png, PNG_CRC_QUIET_USE, PNG_CRC_DEFAULT);
+#ifdef PNG_IGNORE_ADLER32
+        png_set_option(c.png, PNG_IGNORE_ADLER32, PNG_OPTION_ON);
+#endif
+    }
+    png_read_info(c.png, c.info);
+    struct kiln_image_info got;
+    png_fill_info(&c, &got);
+    if (got.width != want->width || got.height != want->height ||
+        got.channels != want->channels || got.depth != want->depth) {
+        png_close(&c);
+        return kiln_err_set(err, KILN_EINTERNAL, "PNG header changed between reads");
+    }
+    /* Interlaced rows are only whole after the last pass. */
+    if (png_get_interlace_type(c.png, c.info) != PNG_INTERLACE_NONE) {
+        png_close(&c);
+        return KILN_DECODE_ROWS_DECLINED;
+    }
+    png_set_expand(c.png);
+    if (got.depth == 16 && host_is_little_endian())
+        png_set_swap(c.png);
+    png_read_update_info(c.png, c.info);
+    const size_t stride = (size_t)want->width * want->channels * (want->depth / 8);
+    if (png_get_rowbytes(c.png, c.info) != stride) {
+        png_close(&c);
+        return kiln_err_set(err, KILN_EINTERNAL, "PNG row size %zu differs from %zu",
+                            (size_t)png_get_rowbytes(c.png, c.info), stride);
+    }
+    if (!(buf = malloc(stride))) {
+        png_close(&c);
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a PNG row");
+    }
+    for (uint32_t y = 0; y < want->height && !rc; y++) {
+        png_read_row(c.png, buf, NULL);
+        rc = row(ctx, y, buf);
+    }
+    free(buf);
+    png_close(&c);
+    return rc;
+}
+
 static void png_library_version(char *buf, size_t len)
 {
     snprintf(buf, len, "%s", png_get_libpng_ver(NULL));
@@ -226,6 +284,7 @@ const struct kiln_decoder kiln_decoder_png = {
     .probe = png_probe,
     .read_info = png_read_info_fn,
     .decode = png_decode_fn,
+    .decode_rows = png_decode_rows_fn,
     .library = "libpng",
     .library_version = png_library_version,
 };
