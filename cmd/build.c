@@ -3,6 +3,7 @@
 #include <string.h>
 
 #include "../core/pipeline/record_pool.h"
+#include "../core/pipeline/stage_near.h"
 #include "../core/pipeline/stage_pack.h"
 #include "../core/pipeline/stage_record.h"
 #include "../core/pipeline/stage_split.h"
@@ -81,8 +82,20 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report sprep;
+    struct kiln_nearlinks near;
+    memset(&near, 0, sizeof near);
+    const struct kiln_nearlinks *links = sp->near ? &near : NULL;
     json_t *rec = json_object();
-    int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, so, &cat, &srep, &err);
+    int exit_code = KILN_EXIT_OK;
+    /* The fingerprints wait in a scratch file in the output folder, not in memory. */
+    int rc = kiln_near_attach_store(&cat, po->outdir, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        exit_code = KILN_EXIT_FAILURE;
+        rc = -1; /* reported */
+    }
+    if (!rc)
+        rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, so, &cat, &srep, &err);
     cli_progress_done(&prog);
     const bool scan_failed = rc != 0;
     if (!rc) {
@@ -90,13 +103,14 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
                                                           (size_t)nsrc, so, &srep, &cat));
         cli_print_scan_summary(stdout, &cat, &srep, so->group_regex, quiet);
     }
-    int exit_code = KILN_EXIT_OK;
-    if (!rc && (exit_code = cli_split_catalog(&cat, sp, &units, &sprep)) != 0)
+    if (!rc && (exit_code = cli_split_catalog(&cat, sp, a->jobs, &near, &units, &sprep)) != 0)
         rc = -1; /* already reported */
     if (!rc) {
-        cli_print_split_summary(stdout, &cat, &units, sp, &sprep, quiet);
-        json_object_set_new(rec, "split", kiln_split_record(sp, &units, &sprep));
+        cli_print_split_summary(stdout, &cat, &units, sp, &sprep, links, quiet);
+        json_object_set_new(rec, "split", kiln_split_record(sp, &units, &sprep, links, &cat));
         po->catalog_record = rec;
+        po->near = links; /* the audit reuses the split's checked links */
+        po->near_off = !sp->near;
         cli_progress_start(&prog, "pack", quiet);
         po->progress = cli_progress_update;
         po->progress_ctx = &prog;
@@ -113,6 +127,7 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
     }
     kiln_record_pool_close(&pool);
     json_decref(rec);
+    kiln_nearlinks_free(&near);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
     cli_sources_free(sources, nsrc);

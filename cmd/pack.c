@@ -2,10 +2,19 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../core/pipeline/stage_near.h"
 #include "../core/pipeline/stage_pack.h"
+#include "../core/pipeline/stage_record.h"
 #include "../formats/files/catalog_csv.h"
 #include "../formats/files/manifest.h"
 #include "cmd.h"
+
+static int set_allow_identical(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    (void)o, (void)v;
+    ((struct kiln_pack_opts *)a->own)->allow_identical = true;
+    return 0;
+}
 
 static const struct cli_opt opts[] = {
     CLI_HEADING("options:"),
@@ -13,6 +22,11 @@ static const struct cli_opt opts[] = {
      cli_set_output, "-o OUTDIR is required"},
     CLI_INCLUDE(cli_recipe_group),
     CLI_INCLUDE(cli_limit_group),
+    {"allow-identical-records", 0, CLI_SWITCH, NULL,
+     "pack even when records in two splits are identical (copies\n"
+     "the split did not keep together); the audit lists them.\n"
+     "Without it such a pack stops (exit 6) naming two of them",
+     set_allow_identical},
     CLI_OPT_JOBS,
     CLI_OPT_QUIET,
     CLI_OPT_HELP,
@@ -46,7 +60,14 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool has_split;
-    int rc = kiln_catalog_csv_load(input, &cat, &has_split, &err);
+    /* The fingerprints wait in a scratch file beside the catalogue, not in memory. */
+    int rc = kiln_near_attach_store_beside(&cat, input, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        kiln_catalog_free(&cat);
+        return KILN_EXIT_FAILURE;
+    }
+    rc = kiln_catalog_csv_load(input, &cat, &has_split, &err);
     if (!rc)
         rc = kiln_catalog_index_classes(&cat, &err);
     if (!rc && !has_split)
@@ -65,6 +86,10 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
         rec = NULL;
     }
     o->catalog_record = rec;
+    /* The audit checks near duplicates as the split did. */
+    bool near_on;
+    kiln_near_params_from_record(json_object_get(rec, "split"), &near_on, &o->near_params);
+    o->near_off = !near_on;
     struct cli_progress prog;
     cli_progress_start(&prog, "pack", quiet);
     o->progress = cli_progress_update;
@@ -91,7 +116,7 @@ static int cmd_pack(int argc, char **argv)
     struct kiln_pack_opts o;
     memset(&o, 0, sizeof o);
     kiln_recipe_defaults(&o.recipe);
-    struct cli_args a = {.recipe = &o.recipe};
+    struct cli_args a = {.recipe = &o.recipe, .own = &o};
     int code = cli_parse(&cli_pack, argc, argv, &a);
     if (code == CLI_GO) {
         o.outdir = a.output;

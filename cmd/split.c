@@ -4,6 +4,7 @@
 #include <string.h>
 
 #include "../core/audit.h"
+#include "../core/pipeline/stage_near.h"
 #include "../core/pipeline/stage_record.h"
 #include "../core/pipeline/stage_split.h"
 #include "../formats/files/catalog_csv.h"
@@ -15,6 +16,7 @@ static const struct cli_opt opts[] = {
     CLI_INCLUDE(cli_split_group),
     {"output", 'o', CLI_VALUE, "FILE", "write the split catalogue here instead of in place",
      cli_set_output},
+    CLI_OPT_JOBS,
     CLI_OPT_QUIET,
     CLI_OPT_HELP,
     CLI_OPT_END,
@@ -27,9 +29,10 @@ const struct cli_command cli_split = {
     .summary = "assign train/validation/test splits to a catalogue",
     .usage = "split catalog.csv --seed N [options]",
     .about = "Groups items that must stay together (same group, same file bytes, same decoded\n"
-             "pixels) into units and deals the units to splits by a keyed hash of the seed and\n"
-             "the unit's content, never by paths or row order. Writes the catalogue back (or to\n"
-             "-o) with unit and split columns and records the parameters in catalog.json.\n",
+             "pixels, near duplicates checked on pixels) into units and deals the units to\n"
+             "splits by a keyed hash of the seed and the unit's content, never by paths or row\n"
+             "order. Writes the catalogue back (or to -o) with unit and split columns and\n"
+             "records the parameters in catalog.json.\n",
     .opts = opts,
     .min_args = 1,
     .max_args = 1,
@@ -52,7 +55,14 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool had_split;
-    int rc = kiln_catalog_csv_load(input, &cat, &had_split, &err);
+    /* The fingerprints wait in a scratch file beside the output, not in memory. */
+    int rc = kiln_near_attach_store_beside(&cat, output, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        kiln_catalog_free(&cat);
+        return KILN_EXIT_FAILURE;
+    }
+    rc = kiln_catalog_csv_load(input, &cat, &had_split, &err);
     if (!rc)
         rc = kiln_catalog_index_classes(&cat, &err);
     if (rc) {
@@ -63,8 +73,12 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report rep;
-    code = cli_split_catalog(&cat, p, &units, &rep);
+    struct kiln_nearlinks near;
+    memset(&near, 0, sizeof near);
+    const struct kiln_nearlinks *links = p->near ? &near : NULL;
+    code = cli_split_catalog(&cat, p, a->jobs, &near, &units, &rep);
     if (code) {
+        kiln_nearlinks_free(&near);
         kiln_units_free(&units);
         kiln_catalog_free(&cat);
         return code;
@@ -80,10 +94,10 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     if (!rec)
         rec = json_object();
     json_object_set_new(rec, "catalog", json_string(output));
-    json_t *srec = kiln_split_record(p, &units, &rep);
+    json_t *srec = kiln_split_record(p, &units, &rep, links, &cat);
     struct kiln_audit audit;
     struct kiln_err aerr = {0};
-    bool audited = kiln_audit_run(&cat, p->near_bits >= 0 ? p->near_bits : 6, NULL, &audit, &aerr) == 0;
+    bool audited = kiln_audit_run(&cat, links, NULL, NULL, &audit, &aerr) == 0;
     if (audited)
         json_object_set_new(srec, "audit", kiln_audit_record(&audit, &cat));
     else
@@ -97,7 +111,7 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
         cli_error("%s", err.msg);
         exit_code = KILN_EXIT_FAILURE;
     } else {
-        cli_print_split_summary(stdout, &cat, &units, p, &rep, quiet);
+        cli_print_split_summary(stdout, &cat, &units, p, &rep, links, quiet);
     }
     if (!rc && !quiet) {
         if (had_split)
@@ -112,6 +126,7 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     json_decref(rec);
     free(in_rec);
     free(out_rec);
+    kiln_nearlinks_free(&near);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
     return exit_code;

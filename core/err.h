@@ -14,7 +14,8 @@ enum kiln_code {
     KILN_EUNSUPPORTED = 6, /* input is well formed but uses a feature kiln does not handle */
     KILN_ETOOLARGE = 7,    /* input exceeds a configured limit (checked before allocating) */
     KILN_EMISMATCH = 8,    /* a checksum or recorded value does not match */
-    KILN_EINTERNAL = 9     /* a broken invariant: a bug in kiln */
+    KILN_EINTERNAL = 9,    /* a broken invariant: a bug in kiln */
+    KILN_ELEAK = 10        /* the output would hold identical content in two splits */
 };
 
 struct kiln_err {

@@ -459,6 +459,64 @@ int kiln_nearfp_compute(const struct kiln_image *img, struct kiln_nearfp *fp,
     return KILN_OK;
 }
 
+/* ---- bytes ------------------------------------------------------------------------------------ */
+
+static void put_be(uint8_t *p, uint64_t v, unsigned n)
+{
+    for (unsigned i = 0; i < n; i++)
+        p[i] = (uint8_t)(v >> (8 * (n - 1 - i)));
+}
+
+static uint64_t get_be(const uint8_t *p, unsigned n)
+{
+    uint64_t v = 0;
+    for (unsigned i = 0; i < n; i++)
+        v = v << 8 | p[i];
+    return v;
+}
+
+#define HUE_CELLS (KILN_NEARFP_HUE * KILN_NEARFP_HUE)
+
+void kiln_nearfp_encode(const struct kiln_nearfp *fp, uint8_t out[KILN_NEARFP_BYTES])
+{
+    static_assert(24 + 2 * HUE_CELLS + NCELL == KILN_NEARFP_BYTES, "the documented layout");
+    out[0] = KILN_NEARFP_VERSION;
+    out[1] = fp->flags;
+    put_be(out + 2, fp->info, 2);
+    put_be(out + 4, fp->hash, 8);
+    put_be(out + 12, fp->centre, 8);
+    put_be(out + 20, fp->chroma_scale, 4);
+    for (int i = 0; i < HUE_CELLS; i++)
+        for (int k = 0; k < 2; k++)
+            out[24 + 2 * i + k] = (uint8_t)fp->chroma[i][k];
+    memcpy(out + 24 + 2 * HUE_CELLS, fp->thumb, NCELL);
+}
+
+int kiln_nearfp_decode(const uint8_t in[KILN_NEARFP_BYTES], struct kiln_nearfp *fp)
+{
+    memset(fp, 0, sizeof *fp);
+    if (in[0] != KILN_NEARFP_VERSION || (in[1] & ~(KILN_NEARFP_LOWINFO | KILN_NEARFP_SMALL)) ||
+        ((in[1] & KILN_NEARFP_SMALL) && !(in[1] & KILN_NEARFP_LOWINFO)))
+        return -1;
+    fp->flags = in[1];
+    fp->info = (uint16_t)get_be(in + 2, 2);
+    fp->hash = get_be(in + 4, 8);
+    fp->centre = get_be(in + 12, 8);
+    fp->chroma_scale = (uint32_t)get_be(in + 20, 4);
+    if (((fp->hash | fp->centre) & 1) ||
+        (fp->info < KILN_NEARFP_MIN_INFO && !(fp->flags & KILN_NEARFP_LOWINFO)))
+        return -1;
+    for (int i = 0; i < HUE_CELLS; i++)
+        for (int k = 0; k < 2; k++) {
+            int8_t c = (int8_t)in[24 + 2 * i + k];
+            if (c < -127 || (c && !fp->chroma_scale))
+                return -1;
+            fp->chroma[i][k] = c;
+        }
+    memcpy(fp->thumb, in + 24 + 2 * HUE_CELLS, NCELL);
+    return 0;
+}
+
 /* ---- verification ------------------------------------------------------------------------------ */
 
 /* Per-axis alignments: (scale, offset) in fortieths of the picture. */

@@ -25,6 +25,7 @@
 #include "../checked.h"
 #include "../names.h"
 #include "record_pool.h"
+#include "stage_near.h"
 #include "stage_record.h"
 #include "../prepare.h"
 #include "queue.h"
@@ -58,6 +59,7 @@ struct pack_run {
     struct kiln_err err;
     struct kiln_progress prog;
     uint8_t *delivered; /* per item, set when its bytes were queued */
+    uint8_t (*digest)[KILN_RECORD_DIGEST_LEN]; /* per item: its record's digest */
 };
 
 static void fail(struct pack_run *run, const struct kiln_err *e)
@@ -420,6 +422,11 @@ static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln
     }
     if (denom > 1)
         w->dct_reduced++;
+    uint8_t d[KILN_SHA256_LEN];
+    rc = kiln_sha256_buf(w->record, run->int_record, d, e);
+    if (rc)
+        return rc;
+    memcpy(run->digest[j->item], d, KILN_RECORD_DIGEST_LEN);
     const int s = it->split;
     rc = add_record_stats(&w->stats[s], r, w->record, e);
     if (rc)
@@ -702,6 +709,12 @@ static int layout_from_pool(struct pack_run *run, struct kiln_err *err)
                 break;
             }
             rc = kiln_record_pool_get(run->o->pool, it->pool_slot, buf, err);
+            uint8_t d[KILN_SHA256_LEN];
+            if (!rc && !it->has_record)
+                rc = kiln_sha256_buf(buf, run->int_record, d, err);
+            if (!rc)
+                memcpy(run->digest[run->order[s][k]], it->has_record ? it->record_digest : d,
+                       KILN_RECORD_DIGEST_LEN);
             if (!rc)
                 rc = add_record_stats(&run->rep->stats[s], r, buf, err);
             if (!rc && r->dtype != KILN_OUT_F32)
@@ -918,6 +931,63 @@ static int write_sums(const char *dir, const struct out_hash *h, size_t n, struc
     return kiln_outfile_commit(&of, err);
 }
 
+static int cmp_digest_r(const void *x, const void *y, void *ctx)
+{
+    const uint8_t(*digest)[KILN_RECORD_DIGEST_LEN] = ctx;
+    const uint32_t i = *(const uint32_t *)x, j = *(const uint32_t *)y;
+    int c = memcmp(digest[i], digest[j], KILN_RECORD_DIGEST_LEN);
+    return c ? c : (i > j) - (i < j);
+}
+
+/* No record written to one split may be identical to a record in another (docs/split.md): with
+ * the packed items sorted by record digest, each run of equal digests must lie in one split.
+ * Returns KILN_ELEAK naming the first such pair (its smallest item and the first item of the
+ * run in another split) unless o->allow_identical; counts the pairs either way. */
+static int check_identical(struct pack_run *run, struct kiln_err *err)
+{
+    const struct kiln_catalog *cat = run->cat;
+    uint32_t *ord = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *ord);
+    if (!ord)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot sort %zu record digests", cat->n);
+    size_t n = 0;
+    for (size_t i = 0; i < cat->n; i++)
+        if (cat->items[i].split != KILN_SPLIT_NONE)
+            ord[n++] = (uint32_t)i;
+    if (n > 1)
+        qsort_r(ord, n, sizeof *ord, cmp_digest_r, run->digest);
+    size_t pairs = 0;
+    uint32_t first_a = UINT32_MAX, first_b = UINT32_MAX;
+    for (size_t i = 0, j; i < n; i = j) {
+        size_t per[KILN_NSPLITS] = {0, 0, 0};
+        uint32_t other = UINT32_MAX; /* first item of the run in another split than ord[i]'s */
+        for (j = i; j < n && memcmp(run->digest[ord[i]], run->digest[ord[j]],
+                                    KILN_RECORD_DIGEST_LEN) == 0;
+             j++) {
+            per[cat->items[ord[j]].split]++;
+            if (other == UINT32_MAX && cat->items[ord[j]].split != cat->items[ord[i]].split)
+                other = ord[j];
+        }
+        pairs += per[0] * per[1] + per[0] * per[2] + per[1] * per[2];
+        if (other != UINT32_MAX && ord[i] < first_a) {
+            first_a = ord[i];
+            first_b = other;
+        }
+    }
+    free(ord);
+    run->rep->identical_records = pairs;
+    if (!pairs || run->o->allow_identical)
+        return KILN_OK;
+    char na[2048], nb[2048];
+    const struct kiln_item *a = &cat->items[first_a], *b = &cat->items[first_b];
+    return kiln_err_set(err, KILN_ELEAK,
+                        "identical records in two splits: %s (%s) and %s (%s) give the same "
+                        "record with this recipe%s; put them in one group, or allow it (the "
+                        "audit then lists them)",
+                        item_name(a, na, sizeof na), kiln_split_name(a->split),
+                        item_name(b, nb, sizeof nb), kiln_split_name(b->split),
+                        pairs > 1 ? " (and more pairs)" : "");
+}
+
 int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
                     struct kiln_pack_report *rep, struct kiln_err *err)
 {
@@ -955,8 +1025,10 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     /* From here every path ends at the clean-up at the bottom. */
     json_t *manifest = NULL;
     run.delivered = calloc(cat->n ? cat->n : 1, 1);
-    rc = run.delivered ? plan_records(&run, err)
-                       : kiln_err_set(err, KILN_ENOMEM, "cannot plan %zu records", cat->n);
+    run.digest = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *run.digest);
+    rc = run.delivered && run.digest
+             ? plan_records(&run, err)
+             : kiln_err_set(err, KILN_ENOMEM, "cannot plan %zu records", cat->n);
     if (!rc && r->dtype == KILN_OUT_F32 && rep->records[KILN_SPLIT_TRAIN] == 0)
         rc = kiln_err_set(err, KILN_EINVAL,
                           "the training split is empty, so --dtype f32 has no training "
@@ -968,6 +1040,8 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     run.prog.total_items = packed;
     if (!rc)
         rc = o->pool ? layout_from_pool(&run, err) : run_workers(&run, err);
+    if (!rc)
+        rc = check_identical(&run, err);
 
     json_t *recipe = kiln_recipe_to_json(r);
     char *recipe_text = kiln_json_dump(recipe);
@@ -1063,11 +1137,20 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         json_object_set_new(manifest, "counts", counts);
         json_object_set_new(manifest, "statistics", json_incref(stats_all));
         json_object_set_new(manifest, "dct_reduced_items", json_integer((json_int_t)rep->dct_reduced));
-        /* The audit checks near duplicates at the radius the split merged, else the default. */
-        const json_t *nb = json_object_get(split_rec, "merge_near_duplicates");
+        /* The audit of the records as packed: their digests, and the near-duplicate links
+         * (the split's in kiln build, else checked here). */
+        struct kiln_nearlinks own;
+        memset(&own, 0, sizeof own);
+        const struct kiln_nearlinks *near = o->near;
+        if (!near && !o->near_off) {
+            rc = kiln_stage_near(cat, &o->near_params, o->jobs, &own, err);
+            near = &own;
+        }
         struct kiln_audit audit;
-        rc = kiln_audit_run(cat, json_is_integer(nb) ? (int)json_integer_value(nb) : 6,
-                            rep->present, &audit, err);
+        if (!rc)
+            rc = kiln_audit_run(cat, near, (const uint8_t(*)[KILN_RECORD_DIGEST_LEN])run.digest,
+                                rep->present, &audit, err);
+        kiln_nearlinks_free(&own);
         if (!rc) {
             json_object_set_new(manifest, "audit", kiln_audit_record(&audit, cat));
             rep->leaks = audit.nleaks;
@@ -1110,6 +1193,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         free(run.order[s]);
     free(run.record_of);
     free(run.delivered);
+    free(run.digest);
     pthread_mutex_destroy(&run.mu);
     return rc;
 }

@@ -10,6 +10,7 @@
 
 #include "../catalog.h"
 #include "../err.h"
+#include "../nearlink.h"
 #include "../recipe.h"
 #include "../stats.h"
 #include "pipeline.h"
@@ -29,6 +30,14 @@ struct kiln_pack_opts {
     void *progress_ctx;
     /* kiln build: records prepared during scan (each item's pool_slot); no decoding here. */
     struct kiln_record_pool *pool;
+    /* Two identical records in different splits stop the pack (KILN_ELEAK, both items named)
+     * unless this is set; then they are recorded as audit findings. */
+    bool allow_identical;
+    /* The catalogue's checked near-duplicate links for the audit (kiln build passes the
+     * split's); NULL: pack checks them itself from cat->fps with near_params. */
+    const struct kiln_nearlinks *near;
+    struct kiln_nearlink_params near_params;
+    bool near_off; /* no near-duplicate audit (the split ran without it) */
 };
 
 struct kiln_pack_report {
@@ -40,6 +49,7 @@ struct kiln_pack_report {
     uint64_t bytes_read;
     size_t skipped;              /* catalogue rows not packed (not ok, or no split) */
     size_t leaks, missing_classes; /* audit findings recorded in the manifest */
+    size_t identical_records;      /* pairs of identical records in two splits (allowed) */
 };
 
 /* Packs cat (loaded, classes indexed, split assigned) into o->outdir. The folder is created if

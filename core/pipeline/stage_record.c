@@ -55,8 +55,88 @@ json_t *kiln_scan_record(const char *const *sources, size_t nsources,
     return j;
 }
 
+static json_t *q20(int32_t v)
+{
+    return json_real((double)v / 1048576.0); /* exact: a binary fraction */
+}
+
+/* {"name": relative name, "split": split} of an item, as records list them. */
+static json_t *item_entry(const struct kiln_item *it)
+{
+    char rel[4096];
+    kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+    json_t *o = json_object();
+    json_object_set_new(o, "name", text(rel));
+    json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));
+    return o;
+}
+
+json_t *kiln_nearlink_record(const struct kiln_nearlink *l, const struct kiln_catalog *cat)
+{
+    json_t *j = json_object(), *items = json_array(), *searches = json_array();
+    json_array_append_new(items, item_entry(&cat->items[l->c.a]));
+    json_array_append_new(items, item_entry(&cat->items[l->c.b]));
+    json_object_set_new(j, "items", items);
+    json_object_set_new(j, "orientation", json_integer(l->c.orientation));
+    json_object_set_new(j, "distance", json_integer(l->c.distance));
+    json_object_set_new(j, "centre_distance", json_integer(l->c.centre_distance));
+    json_object_set_new(j, "similarity", q20(kiln_nearmatch_global(&l->m)));
+    json_object_set_new(j, "detail", q20(kiln_nearmatch_local(&l->m)));
+    json_object_set_new(j, "hue", q20(l->m.hue));
+    json_object_set_new(j, "trimmed", json_boolean(l->m.trimmed));
+    json_object_set_new(j, "alignment", json_integer(l->m.warp));
+    static const char *const names[] = {"full", "centre", "turned", "coarse", "coarse-centre"};
+    for (int b = 0; b < 5; b++)
+        if (l->c.sources >> b & 1)
+            json_array_append_new(searches, json_string(names[b]));
+    json_object_set_new(j, "searches", searches);
+    json_object_set_new(j, "unit_rule", json_string(kiln_nearlink_verdict_name(l->verdict)));
+    return j;
+}
+
+#define NEAR_LISTED 100
+
+static json_t *near_record(const struct kiln_split_params *p, const struct kiln_nearlinks *l,
+                           const struct kiln_catalog *cat)
+{
+    if (!p->near)
+        return json_null();
+    const struct kiln_nearlink_params *q = &p->near_params;
+    json_t *j = json_object();
+    json_object_set_new(j, "algorithm", json_string(KILN_NEAR_ALGORITHM));
+    json_object_set_new(j, "radius_full", json_integer(q->radius_full));
+    json_object_set_new(j, "radius_centre", json_integer(q->radius_centre));
+    json_object_set_new(j, "radius_turned", json_integer(q->radius_turned));
+    json_object_set_new(j, "radius_coarse", json_integer(q->radius_coarse));
+    json_object_set_new(j, "coarse_confirm", json_integer(q->coarse_confirm));
+    json_object_set_new(j, "max_pictures", json_integer(q->max_pictures));
+    if (!l)
+        return j;
+    json_object_set_new(j, "pictures", json_integer((json_int_t)l->pictures));
+    json_object_set_new(j, "low_information", json_integer((json_int_t)l->lowinfo));
+    json_object_set_new(j, "candidates", json_integer((json_int_t)l->candidates));
+    json_object_set_new(j, "links", json_integer((json_int_t)l->n));
+    json_object_set_new(j, "linked",
+                        json_integer((json_int_t)l->per_verdict[KILN_NEARLINK_LINKED]));
+    json_object_set_new(j, "refused_different_labels",
+                        json_integer((json_int_t)l->per_verdict[KILN_NEARLINK_REFUSED_LABEL]));
+    json_object_set_new(j, "refused_too_many_pictures",
+                        json_integer((json_int_t)l->per_verdict[KILN_NEARLINK_REFUSED_SIZE]));
+    json_t *refused = json_array();
+    size_t listed = 0, total = 0;
+    for (size_t k = 0; k < l->n; k++)
+        if (l->link[k].verdict != KILN_NEARLINK_LINKED && total++ < NEAR_LISTED) {
+            json_array_append_new(refused, kiln_nearlink_record(&l->link[k], cat));
+            listed++;
+        }
+    json_object_set_new(j, "refused", refused);
+    json_object_set_new(j, "refused_not_listed", json_integer((json_int_t)(total - listed)));
+    return j;
+}
+
 json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_units *u,
-                          const struct kiln_split_report *rep)
+                          const struct kiln_split_report *rep, const struct kiln_nearlinks *near,
+                          const struct kiln_catalog *cat)
 {
     json_t *j = json_object();
     char ratios[96];
@@ -70,8 +150,7 @@ json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_u
     json_object_set_new(j, "parts", json_integer(p->nparts));
     json_object_set_new(j, "mode", json_string(kiln_split_mode_name(p->mode)));
     json_object_set_new(j, "stratify", json_boolean(p->stratify));
-    json_object_set_new(j, "merge_near_duplicates",
-                        p->near_bits >= 0 ? json_integer(p->near_bits) : json_null());
+    json_object_set_new(j, "near_duplicates", near_record(p, near, cat));
     if (p->keep_manifest) {
         json_t *k = json_object();
         json_object_set_new(k, "manifest", text(p->keep_manifest ? p->keep_manifest : ""));
@@ -88,6 +167,7 @@ json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_u
     json_object_set_new(j, "merged_by_group", json_integer((json_int_t)u->merged_groups));
     json_object_set_new(j, "merged_by_bytes", json_integer((json_int_t)u->merged_bytes));
     json_object_set_new(j, "merged_by_pixels", json_integer((json_int_t)u->merged_pixels));
+    json_object_set_new(j, "merged_by_records", json_integer((json_int_t)u->merged_records));
     json_object_set_new(j, "merged_by_near_duplicates", json_integer((json_int_t)u->merged_near));
     json_object_set_new(j, "mixed_label_units", json_integer((json_int_t)rep->mixed_units));
     json_object_set_new(j, "oversized_units", json_integer((json_int_t)rep->oversized_units));
@@ -124,9 +204,39 @@ int kiln_split_params_from_record(const json_t *split, struct kiln_split_params 
     if (p->mode < 0)
         return kiln_err_set(err, KILN_EINVAL, "bad recorded mode '%s'", mode);
     p->stratify = json_is_true(json_object_get(split, "stratify"));
-    const json_t *near = json_object_get(split, "merge_near_duplicates");
-    p->near_bits = json_is_integer(near) ? (int)json_integer_value(near) : -1;
+    const json_t *near = json_object_get(split, "near_duplicates");
+    if (!json_is_null(near) && !json_is_object(near))
+        return kiln_err_set(err, KILN_EINVAL, "bad recorded near_duplicates");
+    const char *nalg = json_string_value(json_object_get(near, "algorithm"));
+    if (json_is_object(near) && (!nalg || strcmp(nalg, KILN_NEAR_ALGORITHM) != 0))
+        return kiln_err_set(err, KILN_EUNSUPPORTED, "near-duplicate algorithm %s is not %s",
+                            nalg ? nalg : "(none)", KILN_NEAR_ALGORITHM);
+    kiln_near_params_from_record(split, &p->near, &p->near_params);
     return KILN_OK;
+}
+
+void kiln_near_params_from_record(const json_t *split, bool *on, struct kiln_nearlink_params *p)
+{
+    kiln_nearlink_defaults(p);
+    const json_t *near = json_object_get(split, "near_duplicates");
+    *on = !json_is_null(near);
+    if (!json_is_object(near))
+        return;
+    struct {
+        const char *key;
+        unsigned *v, lo, hi;
+    } f[] = {{"radius_full", &p->radius_full, 0, 16},
+             {"radius_centre", &p->radius_centre, 0, 16},
+             {"radius_turned", &p->radius_turned, 0, 16},
+             {"radius_coarse", &p->radius_coarse, 0, 16},
+             {"coarse_confirm", &p->coarse_confirm, 0, 63},
+             {"max_pictures", &p->max_pictures, 2, UINT32_MAX}};
+    for (size_t k = 0; k < sizeof f / sizeof f[0]; k++) {
+        const json_t *v = json_object_get(near, f[k].key);
+        if (json_is_integer(v) && json_integer_value(v) >= (json_int_t)f[k].lo &&
+            (uint64_t)json_integer_value(v) <= f[k].hi)
+            *f[k].v = (unsigned)json_integer_value(v);
+    }
 }
 
 /* String fields of the scan and split records that never hold a name. */
@@ -209,8 +319,7 @@ json_t *kiln_record_public(const json_t *record, const struct kiln_names *n, str
 json_t *kiln_audit_record(const struct kiln_audit *a, const struct kiln_catalog *cat)
 {
     json_t *j = json_object();
-    json_object_set_new(j, "near_duplicate_bits",
-                        a->near_bits >= 0 ? json_integer(a->near_bits) : json_null());
+    json_object_set_new(j, "near_duplicates_checked", json_boolean(a->near_checked));
     json_object_set_new(j, "clean", json_boolean(a->nleaks == 0));
     json_t *counts = json_object();
     for (int k = 0; k < KILN_LEAK_KINDS; k++)
@@ -230,16 +339,11 @@ json_t *kiln_audit_record(const struct kiln_audit *a, const struct kiln_catalog 
     for (size_t l = 0; l < a->nleaks && l < AUDIT_LISTED; l++) {
         json_t *f = json_object(), *items = json_array();
         json_object_set_new(f, "kind", json_string(kiln_leak_kind_name(a->leaks[l].kind)));
-        for (size_t k = 0; k < a->leaks[l].count; k++) {
-            const struct kiln_item *it = &cat->items[a->items[a->leaks[l].first + k]];
-            char rel[4096];
-            kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
-            json_t *o = json_object();
-            json_object_set_new(o, "name", text(rel));
-            json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));
-            json_array_append_new(items, o);
-        }
+        for (size_t k = 0; k < a->leaks[l].count; k++)
+            json_array_append_new(items, item_entry(&cat->items[a->items[a->leaks[l].first + k]]));
         json_object_set_new(f, "items", items);
+        if (a->leaks[l].kind == KILN_LEAK_NEAR)
+            json_object_set_new(f, "link", kiln_nearlink_record(&a->leaks[l].near, cat));
         json_array_append_new(list, f);
     }
     json_object_set_new(j, "findings", list);

@@ -12,11 +12,22 @@
 json_t *kiln_scan_record(const char *const *sources, size_t nsources,
                          const struct kiln_scan_opts *o, const struct kiln_scan_report *rep,
                          const struct kiln_catalog *cat);
+/* near: the split's checked links (NULL when near duplicates were off); cat names the items
+ * of refused links. */
 json_t *kiln_split_record(const struct kiln_split_params *p, const struct kiln_units *u,
-                          const struct kiln_split_report *rep);
+                          const struct kiln_split_report *rep, const struct kiln_nearlinks *near,
+                          const struct kiln_catalog *cat);
 /* Reads the split parameters back from a split record (reproduce). */
 int kiln_split_params_from_record(const json_t *split, struct kiln_split_params *p,
                                   struct kiln_err *err);
+/* The near-duplicate settings of a split record ("near_duplicates"): *on and p; defaults and
+ * *on = true when the record has none (a catalogue split by hand or not at all). */
+void kiln_near_params_from_record(const json_t *split, bool *on, struct kiln_nearlink_params *p);
+
+/* The evidence of one checked link, for records and reports: the two items (names, splits),
+ * orientation, hash distances, the correlations that decided, hue, alignment, searches and the
+ * unit rule's verdict. */
+json_t *kiln_nearlink_record(const struct kiln_nearlink *l, const struct kiln_catalog *cat);
 
 /* The scan and split records of catalog.json as an output may show them: a copy in which every
  * string value is passed through kiln_names_out unless its key is known to hold no name (rule

@@ -290,7 +290,7 @@ static void *load_worker(void *arg)
 /* The searches handed out to the threads one by one, then merged: the same candidates as one
  * thread would find (kiln_nearlink_merge sorts them). */
 struct search_run {
-    const struct kiln_nearfp *fp;
+    const struct kiln_nearkey *fp;
     size_t n;
     const struct kiln_nearlink_params *p;
     struct kiln_nearcands parts[KILN_NEARLINK_SEARCHES];
@@ -323,7 +323,10 @@ static void parallel_candidates(const struct kiln_nearfp *fp, size_t n,
 {
     struct search_run sr;
     memset(&sr, 0, sizeof sr);
-    sr.fp = fp;
+    struct kiln_nearkey *key = xalloc(n, sizeof *key);
+    for (size_t i = 0; i < n; i++)
+        key[i] = kiln_nearkey_of(&fp[i]);
+    sr.fp = key;
     sr.n = n;
     sr.p = p;
     pthread_t tid[64];
@@ -333,8 +336,9 @@ static void parallel_candidates(const struct kiln_nearfp *fp, size_t n,
     for (int j = 0; j < jobs; j++)
         pthread_join(tid[j], NULL);
     struct kiln_err err;
-    if (atomic_load(&sr.failed) || kiln_nearlink_merge(fp, sr.parts, KILN_NEARLINK_SEARCHES, out, &err))
+    if (atomic_load(&sr.failed) || kiln_nearlink_merge(key, sr.parts, KILN_NEARLINK_SEARCHES, out, &err))
         die("candidate search failed", NULL);
+    free(key);
     if (report) {
         printf("CPU time per search (s): full %.2f, centre %.2f, coarse %.2f, coarse centre %.2f, "
                "turned", sr.cpu[0], sr.cpu[1], sr.cpu[2], sr.cpu[3]);
