@@ -979,13 +979,15 @@ static int check_identical(struct pack_run *run, struct kiln_err *err)
         return KILN_OK;
     char na[2048], nb[2048];
     const struct kiln_item *a = &cat->items[first_a], *b = &cat->items[first_b];
+    char more[64] = "";
+    if (pairs > 1)
+        snprintf(more, sizeof more, " (%zu such pairs in all)", pairs);
     return kiln_err_set(err, KILN_ELEAK,
                         "identical records in two splits: %s (%s) and %s (%s) give the same "
                         "record with this recipe%s; put them in one group, or allow it (the "
                         "audit then lists them)",
                         item_name(a, na, sizeof na), kiln_split_name(a->split),
-                        item_name(b, nb, sizeof nb), kiln_split_name(b->split),
-                        pairs > 1 ? " (and more pairs)" : "");
+                        item_name(b, nb, sizeof nb), kiln_split_name(b->split), more);
 }
 
 int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
