@@ -7,7 +7,9 @@
 #include <sys/stat.h>
 
 #include "../core/audit.h"
+#include "../core/checked.h"
 #include "../core/pipeline/stage_near.h"
+#include "../core/pipeline/stage_outrecords.h"
 #include "../core/pipeline/stage_record.h"
 #include "../core/pipeline/stage_split.h"
 #include "../formats/files/catalog_csv.h"
@@ -70,6 +72,7 @@ const struct cli_command cli_audit = {
              "from DCT hashes, each checked on pixels; docs/near-duplicates.md) with its\n"
              "evidence, and warns about classes missing from a split. The check uses the\n"
              "settings the split recorded (manifest.json or catalog.json), else the defaults.\n"
+             "For an output folder the records of its tensor files are compared too.\n"
              "Exit status 6 when anything spans two splits, 0 otherwise.\n",
     .opts = opts,
     .min_args = 1,
@@ -148,15 +151,24 @@ static int audit(const struct cli_args *args, const struct audit_opts *ao)
     memset(&near, 0, sizeof near);
     if (!ao->no_near)
         rc = kiln_stage_near(&cat, &sp.near_params, args->jobs, &near, &err);
+    /* An output folder: its records themselves, compared across splits. */
+    uint8_t(*records)[KILN_RECORD_DIGEST_LEN] = NULL;
+    if (!rc && dir) {
+        records = kiln_alloc_array(cat.n ? cat.n : 1, sizeof *records);
+        rc = records ? kiln_output_record_digests(arg, &cat, records, &err)
+                     : kiln_err_set(&err, KILN_ENOMEM, "out of memory");
+    }
     struct kiln_audit a;
     if (!rc)
-        rc = kiln_audit_run(&cat, ao->no_near ? NULL : &near, NULL, NULL, &a, &err);
+        rc = kiln_audit_run(&cat, ao->no_near ? NULL : &near,
+                            (const uint8_t(*)[KILN_RECORD_DIGEST_LEN])records, NULL, &a, &err);
     kiln_nearlinks_free(&near);
+    free(records);
     if (rc) {
         cli_error("%s", err.msg);
         kiln_catalog_free(&cat);
         free(path);
-        return KILN_EXIT_FAILURE;
+        return rc == KILN_ECORRUPT || rc == KILN_EIO ? KILN_EXIT_INPUT : KILN_EXIT_FAILURE;
     }
     cli_print_audit(stdout, &a, &cat, args->quiet, SIZE_MAX, "");
     for (int s = 0; s < KILN_NSPLITS; s++)

@@ -110,7 +110,7 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
         json_object_set_new(rec, "split", kiln_split_record(sp, &units, &sprep, links, &cat));
         po->catalog_record = rec;
         po->near = links; /* the audit reuses the split's checked links */
-        po->near_off = !sp->near;
+        po->near_params = sp->near_params;
         cli_progress_start(&prog, "pack", quiet);
         po->progress = cli_progress_update;
         po->progress_ctx = &prog;

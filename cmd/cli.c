@@ -234,11 +234,15 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
                             const struct kiln_pack_report *rep, double seconds, bool quiet)
 {
     /* Warnings are not part of the summary: they are printed with or without --quiet. */
-    if (rep->leaks)
+    const size_t facts = rep->leaks - rep->near_leaks;
+    if (facts)
         cli_warn("the audit found %zu %s spanning splits (manifest.json \"audit\"; kiln "
                  "audit %s lists them)",
-                 rep->leaks, rep->leaks == 1 ? "group or duplicate" : "groups or duplicates",
-                 outdir);
+                 facts, facts == 1 ? "group or duplicate" : "groups or duplicates", outdir);
+    if (rep->near_leaks)
+        cli_warn("the audit found %zu possible near %s in different splits (manifest.json "
+                 "\"audit\"; kiln audit %s shows the evidence)",
+                 rep->near_leaks, rep->near_leaks == 1 ? "duplicate" : "duplicates", outdir);
     if (rep->missing_classes)
         cli_warn("%zu %s missing from a split (manifest.json \"audit\")", rep->missing_classes,
                  rep->missing_classes == 1 ? "class is" : "classes are");

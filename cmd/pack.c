@@ -86,10 +86,10 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
         rec = NULL;
     }
     o->catalog_record = rec;
-    /* The audit checks near duplicates as the split did. */
+    /* The audit checks near duplicates with the split's settings (the defaults when it had
+     * none, or the check was off). */
     bool near_on;
     kiln_near_params_from_record(json_object_get(rec, "split"), &near_on, &o->near_params);
-    o->near_off = !near_on;
     struct cli_progress prog;
     cli_progress_start(&prog, "pack", quiet);
     o->progress = cli_progress_update;

@@ -1144,7 +1144,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         struct kiln_nearlinks own;
         memset(&own, 0, sizeof own);
         const struct kiln_nearlinks *near = o->near;
-        if (!near && !o->near_off) {
+        if (!near) {
             rc = kiln_stage_near(cat, &o->near_params, o->jobs, &own, err);
             near = &own;
         }
@@ -1156,6 +1156,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         if (!rc) {
             json_object_set_new(manifest, "audit", kiln_audit_record(&audit, cat));
             rep->leaks = audit.nleaks;
+            rep->near_leaks = audit.per_kind[KILN_LEAK_NEAR];
             rep->missing_classes = audit.missing_count;
             kiln_audit_free(&audit);
         }

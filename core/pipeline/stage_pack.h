@@ -37,7 +37,6 @@ struct kiln_pack_opts {
      * split's); NULL: pack checks them itself from cat->fps with near_params. */
     const struct kiln_nearlinks *near;
     struct kiln_nearlink_params near_params;
-    bool near_off; /* no near-duplicate audit (the split ran without it) */
 };
 
 struct kiln_pack_report {
@@ -49,6 +48,7 @@ struct kiln_pack_report {
     uint64_t bytes_read;
     size_t skipped;              /* catalogue rows not packed (not ok, or no split) */
     size_t leaks, missing_classes; /* audit findings recorded in the manifest */
+    size_t near_leaks;             /* of which possible near duplicates */
     size_t identical_records;      /* pairs of identical records in two splits (allowed) */
 };
 

@@ -273,11 +273,10 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
             goto out;
         near_rerun = true;
     }
-    /* The audit checks near duplicates as the split did (the rerun's links when there was one).
-     * Identical records in two splits were allowed if the recorded output has them: its
-     * manifest's audit lists them, and the comparison below shows any difference. */
+    /* The audit checks near duplicates with the split's settings (the rerun's links when there
+     * was one). Identical records in two splits were allowed if the recorded output has them:
+     * its manifest's audit lists them, and the comparison below shows any difference. */
     kiln_near_params_from_record(split, &near_on, &po.near_params);
-    po.near_off = !near_on;
     po.near = near_rerun && near_on ? &near : NULL;
     po.allow_identical = true;
     record = json_object();

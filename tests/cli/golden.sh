@@ -24,9 +24,9 @@ run build tiles -o A --seed 1 "${group[@]}" --size 32x24 --jobs 2
 run build tiles -o B --seed 2 "${group[@]}" --size 40x30 --fit pad --pad-value 10,20,30 \
     --filter lanczos3 --depth 16 --layout nchw --stratify --mode stable
 # C: centre crop to grey f32 (normalised with the training statistics), two-way split, no DCT
-# reduction.
+# reduction, no near-duplicate check.
 run build tiles -o C --seed 3 --size 28 --fit crop --channels 1 --dtype f32 --filter bicubic \
-    --ratios 70:30 --no-dct-scale
+    --ratios 70:30 --no-dct-scale --near-duplicates off
 # D: hashed names with a secret key, near-duplicate unit limit lowered, RGBA over a background,
 # box filter, EXIF orientation ignored.
 run build tiles -o D --seed 4 "${group[@]}" --size 24x16 --hash-paths --path-key key \
