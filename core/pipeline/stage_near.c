@@ -84,6 +84,17 @@ static int run_threads(struct near_run *r, unsigned jobs, void *(*fn)(void *), s
     return KILN_OK;
 }
 
+static void shrink(struct kiln_nearcands *c)
+{
+    if (c->n && c->n < c->cap) {
+        void *p = realloc(c->c, c->n * sizeof *c->c);
+        if (p) {
+            c->c = p;
+            c->cap = c->n;
+        }
+    }
+}
+
 /* The searches, largest first so the last one to start is short (turned searches join two
  * copies of every hash; the coarse ones find the most pairs). */
 static const unsigned search_order[KILN_NEARLINK_SEARCHES] = {2, 3, 4, 5, 6, 7, 8, 9, 10, 0, 1};
@@ -100,6 +111,7 @@ static void *search_main(void *arg)
         kiln_err_clear(&e);
         if (kiln_nearlink_search(r->key, r->m, r->p, w, &r->parts[w], &e))
             fail(r, &e);
+        shrink(&r->parts[w]); /* the parts wait for one another: no growth slack */
     }
 }
 
@@ -300,6 +312,7 @@ int kiln_stage_near(const struct kiln_catalog *cat, const struct kiln_nearlink_p
     if (rc)
         return kiln_err_sys(err, KILN_ENOMEM, rc, "cannot create a lock for the near-duplicate "
                             "search");
+
     struct kiln_nearcands cands = {NULL, 0, 0};
     rc = gather_keys(&r, out, err);
     if (!rc && r.m >= 2)
@@ -308,6 +321,7 @@ int kiln_stage_near(const struct kiln_catalog *cat, const struct kiln_nearlink_p
         rc = kiln_nearlink_merge(r.key, r.parts, KILN_NEARLINK_SEARCHES, &cands, err);
     for (unsigned w = 0; w < KILN_NEARLINK_SEARCHES; w++)
         kiln_nearcands_free(&r.parts[w]);
+    shrink(&cands); /* merged from every search's list: duplicates removed */
     free((void *)r.key);
     r.key = NULL;
     out->candidates = cands.n;
