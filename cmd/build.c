@@ -3,6 +3,7 @@
 #include <string.h>
 
 #include "../core/pipeline/record_pool.h"
+#include "../core/pipeline/stage_near.h"
 #include "../core/pipeline/stage_pack.h"
 #include "../core/pipeline/stage_record.h"
 #include "../core/pipeline/stage_split.h"
@@ -85,7 +86,19 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
     struct kiln_split_record split_rec;
     memset(&scan_rec, 0, sizeof scan_rec);
     memset(&split_rec, 0, sizeof split_rec);
-    int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, so, &cat, &srep, &err);
+    struct kiln_nearlinks near;
+    memset(&near, 0, sizeof near);
+    const struct kiln_nearlinks *links = sp->near ? &near : NULL;
+    int exit_code = KILN_EXIT_OK;
+    /* The fingerprints wait in a scratch file in the output folder, not in memory. */
+    int rc = kiln_near_attach_store(&cat, po->outdir, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        exit_code = KILN_EXIT_FAILURE;
+        rc = -1; /* reported */
+    }
+    if (!rc)
+        rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, so, &cat, &srep, &err);
     cli_progress_done(&prog);
     const bool scan_failed = rc != 0;
     if (!rc)
@@ -93,14 +106,15 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
     if (!rc)
         rc = kiln_record_scan(&scan_rec, (const char *const *)sources, (size_t)nsrc, so, &srep,
                               &cat, &err);
-    int exit_code = KILN_EXIT_OK;
-    if (!rc && (exit_code = cli_split_catalog(&cat, sp, &units, &sprep)) != 0)
+    if (!rc && (exit_code = cli_split_catalog(&cat, sp, a->jobs, &near, &units, &sprep)) != 0)
         rc = -1; /* already reported */
     if (!rc) {
-        cli_print_split_summary(stdout, &cat, &units, sp, &sprep, quiet);
-        rc = kiln_record_split(&split_rec, sp, &units, &sprep, &err);
+        cli_print_split_summary(stdout, &cat, &units, sp, &sprep, links, quiet);
+        rc = kiln_record_split(&split_rec, sp, &units, &sprep, links, &cat, &err);
         po->scan = &scan_rec;
         po->split = &split_rec;
+        po->near = links; /* the audit reuses the split's checked links */
+        po->near_params = sp->near_params;
     }
     if (!rc) {
         cli_progress_start(&prog, "pack", quiet);
@@ -120,6 +134,7 @@ static int build(const struct cli_args *a, struct kiln_scan_opts *so,
     kiln_record_pool_close(&pool);
     kiln_scan_record_free(&scan_rec);
     kiln_split_record_free(&split_rec);
+    kiln_nearlinks_free(&near);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
     cli_sources_free(sources, nsrc);

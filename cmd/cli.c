@@ -90,6 +90,7 @@ int cli_exit_for(int code)
     case KILN_EUNSUPPORTED:
     case KILN_ETOOLARGE: return KILN_EXIT_INPUT;
     case KILN_EMISMATCH: return KILN_EXIT_DRIFT;
+    case KILN_ELEAK: return KILN_EXIT_LEAK;
     default: return KILN_EXIT_FAILURE;
     }
 }
@@ -178,13 +179,14 @@ void cli_sources_free(char **sources, int n)
     free(sources);
 }
 
-int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
-                      struct kiln_units *units, struct kiln_split_report *rep)
+int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p, unsigned jobs,
+                      struct kiln_nearlinks *near, struct kiln_units *units,
+                      struct kiln_split_report *rep)
 {
     struct kiln_err err;
     kiln_err_clear(&err);
     int8_t *old = NULL;
-    int rc = kiln_stage_split(cat, p, units, rep, &old, &err);
+    int rc = kiln_stage_split(cat, p, jobs, near, units, rep, &old, &err);
     if (rc) {
         cli_error("%s", err.msg);
         return cli_exit_for_input(rc);
@@ -229,11 +231,15 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
                             const struct kiln_pack_report *rep, double seconds, bool quiet)
 {
     /* Warnings are not part of the summary: they are printed with or without --quiet. */
-    if (rep->leaks)
+    const size_t facts = rep->leaks - rep->near_leaks;
+    if (facts)
         cli_warn("the audit found %zu %s spanning splits (manifest.json \"audit\"; kiln "
                  "audit %s lists them)",
-                 rep->leaks, rep->leaks == 1 ? "group or duplicate" : "groups or duplicates",
-                 outdir);
+                 facts, facts == 1 ? "group or duplicate" : "groups or duplicates", outdir);
+    if (rep->near_leaks)
+        cli_warn("the audit found %zu possible near %s in different splits (manifest.json "
+                 "\"audit\"; kiln audit %s shows the evidence)",
+                 rep->near_leaks, rep->near_leaks == 1 ? "duplicate" : "duplicates", outdir);
     if (rep->missing_classes)
         cli_warn("%zu %s missing from a split (manifest.json \"audit\")", rep->missing_classes,
                  rep->missing_classes == 1 ? "class is" : "classes are");
@@ -260,9 +266,32 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
     if (rep->skipped)
         fprintf(f, "%zu catalogue %s not packed (see manifest.json \"skipped\")\n", rep->skipped,
                 rep->skipped == 1 ? "row" : "rows");
-    fprintf(f, "%zu %s in %.2f s (%.0f images/s); manifest: %s/" KILN_FILE_MANIFEST "\n", total,
+    fprintf(f, "%zu %s in %.2f s (%.0f images/s); manifest: %s/manifest.json\n", total,
             total == 1 ? "record" : "records", seconds, seconds > 0 ? (double)total / seconds : 0.0,
             outdir);
+}
+
+void cli_print_link_evidence(FILE *f, const struct kiln_nearlink *l)
+{
+    static const char *const searches[] = {"full", "centre", "turned", "coarse", "coarse centre"};
+    fprintf(f, "hash distance %u (centre %u), similarity %.3f, detail %.3f%s", l->c.distance,
+            l->c.centre_distance, kiln_nearmatch_global(&l->m) / 1048576.0,
+            kiln_nearmatch_local(&l->m) / 1048576.0, l->m.trimmed ? " (label-sized part left out)" : "");
+    if (l->m.hue < (1 << 20))
+        fprintf(f, ", hue %.3f", l->m.hue / 1048576.0);
+    if (l->c.orientation != 1)
+        fprintf(f, ", turned (orientation %u)", l->c.orientation);
+    if (l->m.warp) {
+        unsigned sx, ox, sy, oy, mb;
+        kiln_nearfp_warp(l->m.warp, &sx, &ox, &sy, &oy, &mb);
+        fprintf(f, ", cropped (%s %u%% x %u%% of the other)", mb ? "second is" : "first is",
+                sx * 100 / 40, sy * 100 / 40);
+    }
+    fputs(", found by", f);
+    for (int b = 0, n = 0; b < 5; b++)
+        if (l->c.sources >> b & 1)
+            fprintf(f, "%s %s", n++ ? "," : "", searches[b]);
+    fprintf(f, "; unit rule: %s", kiln_nearlink_verdict_name(l->verdict));
 }
 
 void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
@@ -276,32 +305,42 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
         }
         const struct kiln_leak *lk = &a->leaks[l];
         const struct kiln_item *first = &cat->items[a->items[lk->first]];
-        fprintf(f, "LEAK %s", kiln_leak_kind_name(lk->kind));
-        if (lk->kind == KILN_LEAK_GROUP)
-            fprintf(f, " '%s'", first->group);
-        fputs(":\n", f);
+        if (lk->kind == KILN_LEAK_NEAR) {
+            /* A checked link is strong evidence, not a fact: it is not called a leak. */
+            fprintf(f, "possible near duplicate (distance %u, similarity %.3f):\n",
+                    lk->near.c.distance, kiln_nearmatch_global(&lk->near.m) / 1048576.0);
+        } else {
+            fprintf(f, "LEAK %s", kiln_leak_kind_name(lk->kind));
+            if (lk->kind == KILN_LEAK_GROUP)
+                fprintf(f, " '%s'", first->group);
+            fputs(":\n", f);
+        }
         for (size_t k = 0; k < lk->count; k++) {
             if (k == limit) {
                 fprintf(f, "  ... and %zu more items\n", lk->count - limit);
                 break;
             }
             const struct kiln_item *it = &cat->items[a->items[lk->first + k]];
-            char name[8192];
-            kiln_catalog_item_name(it, name, sizeof name);
-            fprintf(f, "  %-5s %s\n", kiln_split_name(it->split), name);
+            char rel[4096];
+            kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+            fprintf(f, "  %-5s %s/%s\n", kiln_split_name(it->split), it->source, rel);
+        }
+        if (lk->kind == KILN_LEAK_NEAR) {
+            fputs("  evidence: ", f);
+            cli_print_link_evidence(f, &lk->near);
+            fputc('\n', f);
         }
     }
     if (!quiet) {
-        char near[64] = "";
-        if (a->near_bits >= 0)
-            snprintf(near, sizeof near, ", near duplicates within %d bits", a->near_bits);
         if (a->nleaks)
             fprintf(f, "%zu findings span two splits: %zu groups, %zu identical files, %zu identical "
-                       "pictures, %zu near-duplicate clusters\n",
+                       "pictures, %zu identical records, %zu possible near duplicates\n",
                     a->nleaks, a->per_kind[KILN_LEAK_GROUP], a->per_kind[KILN_LEAK_BYTES],
-                    a->per_kind[KILN_LEAK_PIXELS], a->per_kind[KILN_LEAK_NEAR]);
+                    a->per_kind[KILN_LEAK_PIXELS], a->per_kind[KILN_LEAK_RECORD],
+                    a->per_kind[KILN_LEAK_NEAR]);
         else
-            fprintf(f, "audit: nothing spans two splits (groups, identical files and pictures%s)\n",
-                    near);
+            fprintf(f, "audit: nothing spans two splits (groups, identical files, pictures and "
+                       "records%s)\n",
+                    a->near_checked ? ", checked near duplicates" : "; near duplicates not checked");
     }
 }

@@ -22,7 +22,7 @@ enum {
     KILN_EXIT_INPUT = 3,    /* bad input: catalogue, manifest, no usable image, --strict rows */
     KILN_EXIT_DAMAGED = 4,  /* verify: an output differs from its recorded checksum */
     KILN_EXIT_DRIFT = 5,    /* verify/reproduce: a source file is missing or changed */
-    KILN_EXIT_LEAK = 6,     /* audit: something spans two splits */
+    KILN_EXIT_LEAK = 6,     /* audit: something spans two splits; pack: identical records */
     KILN_EXIT_DIFFERS = 7,  /* reproduce: rebuilt outputs are not byte-identical */
 };
 
@@ -108,6 +108,16 @@ int cli_set_jobs(struct cli_args *a, const struct cli_opt *o, const char *value)
 int cli_set_quiet(struct cli_args *a, const struct cli_opt *o, const char *value);
 int cli_set_help(struct cli_args *a, const struct cli_opt *o, const char *value);
 
+/* The near-duplicate settings (split, build and audit): they fill a->split's near_params. */
+int cli_set_near_radius(struct cli_args *a, const struct cli_opt *o, const char *value);
+int cli_set_near_limit(struct cli_args *a, const struct cli_opt *o, const char *value);
+#define CLI_OPT_NEAR_RADIUS {"near-radius", 0, CLI_VALUE, "BITS", \
+                             "hash distance of the candidate search (default 6, 0 to 16)", \
+                             cli_set_near_radius}
+#define CLI_OPT_NEAR_LIMIT {"near-unit-limit", 0, CLI_VALUE, "N", \
+                            "most pictures near-duplicate links may join into one unit\n" \
+                            "(default 8, at least 2)", cli_set_near_limit}
+
 #define CLI_OPT_JOBS {"jobs", 'j', CLI_VALUE, "N", "worker threads (default: online CPUs)", \
                       cli_set_jobs}
 #define CLI_OPT_QUIET {"quiet", 'q', CLI_SWITCH, NULL, \
@@ -157,10 +167,12 @@ double cli_elapsed(const struct cli_progress *p);
 char **cli_sources_new(int n, char **argv);
 void cli_sources_free(char **sources, int n);
 
-/* Runs the split stage over cat (kiln_stage_split) and reports what went wrong or moved
- * (--keep-conflicts test); returns an exit status. Shared by split and build. */
-int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p,
-                      struct kiln_units *units, struct kiln_split_report *rep);
+/* Runs the split stage over cat (kiln_stage_split: with p->near the checked links go to near,
+ * which the caller frees) and reports what went wrong or moved (--keep-conflicts test);
+ * returns an exit status. Shared by split and build. */
+int cli_split_catalog(struct kiln_catalog *cat, struct kiln_split_params *p, unsigned jobs,
+                      struct kiln_nearlinks *near, struct kiln_units *units,
+                      struct kiln_split_report *rep);
 
 /* cmd/summary.c. What scan (and build) found: counts per status, the first unusable rows,
  * skipped files, multi-page files, group rule and labels CSV matches, on f unless quiet; and
@@ -174,7 +186,8 @@ void cli_print_scan_summary(FILE *f, const struct kiln_catalog *cat,
  * (each named, with its items or size), zero shares, and classes missing from a split. */
 void cli_print_split_summary(FILE *f, const struct kiln_catalog *cat,
                              const struct kiln_units *units, const struct kiln_split_params *p,
-                             const struct kiln_split_report *rep, bool quiet);
+                             const struct kiln_split_report *rep,
+                             const struct kiln_nearlinks *near, bool quiet);
 
 /* Prints what pack wrote (records per split, training statistics, where the outputs are) on f
  * unless quiet, and the audit's warnings on stderr always. */
@@ -187,6 +200,10 @@ void cli_print_pack_summary(FILE *f, const char *outdir, const struct kiln_recip
 struct kiln_audit;
 void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_catalog *cat,
                      bool quiet, size_t limit, const char *rerun);
+
+/* The evidence of one near-duplicate link on one line (no newline): hash distances, the
+ * correlations that decided, hue, orientation, crop alignment, searches, unit rule. */
+void cli_print_link_evidence(FILE *f, const struct kiln_nearlink *l);
 
 /* Says on stderr what preparing an output folder removed or left (interrupted runs' temporary
  * files); silent when there was nothing. */

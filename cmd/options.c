@@ -534,13 +534,33 @@ static int set_mode(struct cli_args *a, const struct cli_opt *o, const char *v)
     return 0;
 }
 
-static int set_merge_near(struct cli_args *a, const struct cli_opt *o, const char *v)
+static int set_near(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    if (strcmp(v, "on") != 0 && strcmp(v, "off") != 0)
+        return cli_bad_value(o, v, "use on or off");
+    a->split->near = strcmp(v, "on") == 0;
+    return 0;
+}
+
+int cli_set_near_radius(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
     char *end;
-    long n = v ? strtol(v, &end, 10) : KILN_AUDIT_NEAR_BITS;
-    if (v && (!*v || *end || n < 0 || n > KILN_AUDIT_NEAR_BITS_MAX))
+    errno = 0;
+    long n = strtol(v, &end, 10);
+    if (!*v || *end || errno || n < 0 || n > 16)
         return cli_bad_value(o, v, "use a number of bits from 0 to 16");
-    a->split->near_bits = (int)n;
+    a->split->near_params.radius_full = a->split->near_params.radius_centre = (unsigned)n;
+    return 0;
+}
+
+int cli_set_near_limit(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    char *end;
+    errno = 0;
+    long n = strtol(v, &end, 10);
+    if (!*v || *end || errno || n < 2 || n > 1000000)
+        return cli_bad_value(o, v, "use a number of pictures from 2 to 1000000");
+    a->split->near_params.max_pictures = (unsigned)n;
     return 0;
 }
 
@@ -570,10 +590,13 @@ const struct cli_opt cli_split_group[] = {
      "exact (default: sizes as close to the ratios as whole units\n"
      "allow) or stable (a unit's split depends on its own key only)",
      set_mode},
-    {"merge-near-duplicates", 0, CLI_OPTIONAL, "BITS",
-     "also keep together images whose difference hashes differ in at\n"
-     "most BITS bits (default 6, at most 16)",
-     set_merge_near},
+    {"near-duplicates", 0, CLI_VALUE, "on|off",
+     "keep pictures that are copies of one another (re-saved,\n"
+     "resized, cropped, turned, ... and checked on pixels) in one\n"
+     "unit (default on; docs/near-duplicates.md)",
+     set_near},
+    CLI_OPT_NEAR_RADIUS,
+    CLI_OPT_NEAR_LIMIT,
     {"keep", 0, CLI_VALUE, "MANIFEST",
      "items packed in that earlier output keep their split; new items\nare dealt by the mode",
      set_keep},

@@ -2,14 +2,23 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../core/pipeline/stage_near.h"
 #include "../core/pipeline/stage_pack.h"
 #include "../core/pipeline/stage_catalog.h"
+#include "../core/pipeline/stage_record.h"
 #include "cmd.h"
 
 static int set_allow_outside_paths(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
     (void)o, (void)v;
     ((struct kiln_pack_opts *)a->own)->allow_outside_paths = true;
+    return 0;
+}
+
+static int set_allow_identical(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    (void)o, (void)v;
+    ((struct kiln_pack_opts *)a->own)->allow_identical = true;
     return 0;
 }
 
@@ -23,6 +32,11 @@ static const struct cli_opt opts[] = {
      "read catalogue rows whose path leaves its source (absolute,\n"
      "or with ..); scan never writes them, so they are refused",
      set_allow_outside_paths},
+    {"allow-identical-records", 0, CLI_SWITCH, NULL,
+     "pack even when records in two splits are identical (copies\n"
+     "the split did not keep together); the audit lists them.\n"
+     "Without it such a pack stops (exit 6) naming two of them",
+     set_allow_identical},
     CLI_OPT_JOBS,
     CLI_OPT_QUIET,
     CLI_OPT_HELP,
@@ -56,7 +70,14 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool has_split;
-    int rc = kiln_stage_catalog_load(input, true, "column values", &cat, &has_split, &err);
+    /* The fingerprints wait in a scratch file beside the catalogue, not in memory. */
+    int rc = kiln_near_attach_store_beside(&cat, input, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        kiln_catalog_free(&cat);
+        return KILN_EXIT_FAILURE;
+    }
+    rc = kiln_stage_catalog_load(input, true, "column values", &cat, &has_split, &err);
     if (rc) {
         cli_error("%s", err.msg);
         kiln_catalog_free(&cat);
@@ -70,6 +91,10 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
                  lerr.msg);
     o->scan = scan;
     o->split = split;
+    /* The audit checks near duplicates with the split's settings (the defaults when it had
+     * none, or the check was off). */
+    bool near_on;
+    kiln_near_params_from_record(split, &near_on, &o->near_params);
     struct cli_progress prog;
     cli_progress_start(&prog, "pack", quiet);
     o->progress = cli_progress_update;

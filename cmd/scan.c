@@ -5,6 +5,7 @@
 
 #include "../core/pipeline/stage_record.h"
 #include "../core/pipeline/stage_catalog.h"
+#include "../core/pipeline/stage_near.h"
 #include "cmd.h"
 
 static int set_strict(struct cli_args *a, const struct cli_opt *o, const char *v)
@@ -72,10 +73,17 @@ static int scan(struct cli_args *a, struct kiln_scan_opts *o, const struct kiln_
     struct kiln_scan_report rep;
     struct kiln_err err;
     kiln_err_clear(&err);
-    int rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, o, &cat, &rep, &err);
+    /* Fingerprints wait in a scratch file beside the catalogue until it is written. */
+    int rc = kiln_near_attach_store_beside(&cat, output, &err);
+    const bool store_failed = rc != 0;
+    if (!rc)
+        rc = kiln_stage_scan((const char *const *)sources, (size_t)nsrc, o, &cat, &rep, &err);
     cli_progress_done(&prog);
     int exit_code = KILN_EXIT_OK;
-    if (rc) {
+    if (store_failed) {
+        cli_error("%s", err.msg);
+        exit_code = KILN_EXIT_FAILURE;
+    } else if (rc) {
         cli_error("%s", err.msg);
         exit_code = cli_exit_for_input(rc); /* a source or labels file that cannot be read */
     } else {

@@ -3,6 +3,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "../core/audit.h"
+#include "../core/pipeline/stage_near.h"
 #include "../core/pipeline/stage_record.h"
 #include "../core/pipeline/stage_split.h"
 #include "../core/pipeline/stage_catalog.h"
@@ -13,6 +15,7 @@ static const struct cli_opt opts[] = {
     CLI_INCLUDE(cli_split_group),
     {"output", 'o', CLI_VALUE, "FILE", "write the split catalogue here instead of in place",
      cli_set_output},
+    CLI_OPT_JOBS,
     CLI_OPT_QUIET,
     CLI_OPT_HELP,
     CLI_OPT_END,
@@ -25,9 +28,10 @@ const struct cli_command cli_split = {
     .summary = "assign train/validation/test splits to a catalogue",
     .usage = "split catalog.csv --seed N [options]",
     .about = "Groups items that must stay together (same group, same file bytes, same decoded\n"
-             "pixels) into units and deals the units to splits by a keyed hash of the seed and\n"
-             "the unit's content, never by paths or row order. Writes the catalogue back (or to\n"
-             "-o) with unit and split columns and records the parameters in catalog.json.\n",
+             "pixels, near duplicates checked on pixels) into units and deals the units to\n"
+             "splits by a keyed hash of the seed and the unit's content, never by paths or row\n"
+             "order. Writes the catalogue back (or to -o) with unit and split columns and\n"
+             "records the parameters in catalog.json.\n",
     .opts = opts,
     .min_args = 1,
     .max_args = 1,
@@ -50,7 +54,14 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     struct kiln_catalog cat;
     kiln_catalog_init(&cat);
     bool had_split;
-    int rc = kiln_stage_catalog_load(input, false, "", &cat, &had_split, &err);
+    /* The fingerprints wait in a scratch file beside the output, not in memory. */
+    int rc = kiln_near_attach_store_beside(&cat, output, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        kiln_catalog_free(&cat);
+        return KILN_EXIT_FAILURE;
+    }
+    rc = kiln_stage_catalog_load(input, false, "", &cat, &had_split, &err);
     if (rc) {
         cli_error("%s", err.msg);
         kiln_catalog_free(&cat);
@@ -59,7 +70,10 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     struct kiln_units units;
     memset(&units, 0, sizeof units);
     struct kiln_split_report rep;
-    code = cli_split_catalog(&cat, p, &units, &rep);
+    struct kiln_nearlinks near;
+    memset(&near, 0, sizeof near);
+    const struct kiln_nearlinks *links = p->near ? &near : NULL;
+    code = cli_split_catalog(&cat, p, a->jobs, &near, &units, &rep);
     struct kiln_scan_record *scan = NULL;
     struct kiln_split_record *old = NULL, srec;
     struct kiln_catalog_record crec = {.split = &srec};
@@ -67,10 +81,11 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
         cli_warn("no scan record beside %s (%s); the manifest will lack scan details", input,
                  err.msg);
     crec.scan = scan;
-    rc = code ? KILN_OK : kiln_record_split(&srec, p, &units, &rep, &err);
+    rc = code ? KILN_OK : kiln_record_split(&srec, p, &units, &rep, links, &cat, &err);
     struct kiln_audit audit;
     struct kiln_err aerr = {0};
-    const bool audited = !code && !rc && kiln_stage_split_audit(&cat, p, &audit, &aerr) == 0;
+    const bool audited =
+        !code && !rc && kiln_audit_run(&cat, links, NULL, NULL, &audit, &aerr) == 0;
     if (audited) {
         crec.audit = &audit;
         crec.audit_cat = &cat;
@@ -83,7 +98,7 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
         cli_error("%s", err.msg);
         code = KILN_EXIT_FAILURE;
     } else if (!code) {
-        cli_print_split_summary(stdout, &cat, &units, p, &rep, quiet);
+        cli_print_split_summary(stdout, &cat, &units, p, &rep, links, quiet);
         if (!quiet && had_split)
             printf("(the catalogue's previous split was replaced)\n");
         if (!quiet)
@@ -99,6 +114,7 @@ static int split(const struct cli_args *a, struct kiln_split_params *p)
     kiln_split_record_free(old);
     free(scan);
     free(old);
+    kiln_nearlinks_free(&near);
     kiln_units_free(&units);
     kiln_catalog_free(&cat);
     return code;

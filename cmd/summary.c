@@ -203,9 +203,45 @@ static void warn_missing_classes(const struct kiln_catalog *cat,
     free(count);
 }
 
+/* The near-duplicate links the unit rule refused: the units they would have formed are not
+ * formed silently (docs/near-duplicates.md, section 4); each is named with its evidence. */
+static void warn_refused(FILE *f, const struct kiln_catalog *cat, const struct kiln_nearlinks *l)
+{
+    const size_t refused = l->per_verdict[KILN_NEARLINK_REFUSED_LABEL] +
+                           l->per_verdict[KILN_NEARLINK_REFUSED_SIZE];
+    if (!refused)
+        return;
+    cli_warn("%zu near-duplicate %s passed the pixel check but would join %s, so the "
+             "units stay apart (group them, or correct a label, if they are copies):",
+             refused, plural(refused, "link", "links"),
+             l->per_verdict[KILN_NEARLINK_REFUSED_SIZE] ? "different labels or too many "
+                                                          "pictures"
+                                                        : "different labels");
+    size_t shown = 0;
+    for (size_t k = 0; k < l->n; k++) {
+        const struct kiln_nearlink *x = &l->link[k];
+        if (x->verdict == KILN_NEARLINK_LINKED)
+            continue;
+        if (shown++ == LIST_LIMIT) {
+            fprintf(f, "  ... and %zu more (catalog.json \"near_duplicates\" lists up to 100)\n",
+                    refused - LIST_LIMIT);
+            break;
+        }
+        char na[4096], nb[4096];
+        kiln_catalog_item_name(&cat->items[x->c.a], na, sizeof na);
+        kiln_catalog_item_name(&cat->items[x->c.b], nb, sizeof nb);
+        const char *la = cat->items[x->c.a].label, *lb = cat->items[x->c.b].label;
+        fprintf(f, "  %s (%s) ~ %s (%s)\n    ", na, la[0] ? la : "no label", nb,
+                lb[0] ? lb : "no label");
+        cli_print_link_evidence(f, x);
+        fputc('\n', f);
+    }
+}
+
 void cli_print_split_summary(FILE *f, const struct kiln_catalog *cat,
                              const struct kiln_units *units, const struct kiln_split_params *p,
-                             const struct kiln_split_report *rep, bool quiet)
+                             const struct kiln_split_report *rep,
+                             const struct kiln_nearlinks *near, bool quiet)
 {
     if (!quiet) {
         char ratios[96];
@@ -221,16 +257,29 @@ void cli_print_split_summary(FILE *f, const struct kiln_catalog *cat,
                         plural(rep->items[s], "item", "items"), rep->units_per_split[s],
                         plural(rep->units_per_split[s], "unit", "units"));
         if (units->merged_bytes || units->merged_pixels || units->merged_groups ||
-            units->merged_near)
+            units->merged_records || units->merged_near)
             fprintf(f, "kept together: %zu by group, %zu identical files, %zu identical "
-                       "pixels, %zu near duplicates\n",
+                       "pixels, %zu identical records, %zu near duplicates\n",
                     units->merged_groups, units->merged_bytes, units->merged_pixels,
-                    units->merged_near);
+                    units->merged_records, units->merged_near);
+        if (p->near && near)
+            fprintf(f, "near duplicates: %zu %s checked (%zu low-information, left to exact "
+                       "copies), %zu %s, %zu passed the pixel check, %zu refused by the unit "
+                       "rule\n",
+                    near->pictures, plural(near->pictures, "picture", "pictures"), near->lowinfo,
+                    near->candidates, plural(near->candidates, "candidate", "candidates"),
+                    near->n,
+                    near->per_verdict[KILN_NEARLINK_REFUSED_LABEL] +
+                        near->per_verdict[KILN_NEARLINK_REFUSED_SIZE]);
+        else if (!p->near)
+            fprintf(f, "near duplicates: not checked (--near-duplicates off)\n");
         if (p->keep_manifest)
             fprintf(f, "kept from %s: %zu items in %zu units\n", p->keep_manifest,
                     rep->kept_items, rep->kept_units);
     }
     fflush(f); /* the warnings below name units listed on f */
+    if (p->near && near)
+        warn_refused(stderr, cat, near);
     warn_units(stderr, cat, units, p, true, rep->mixed_units);
     warn_units(stderr, cat, units, p, false, rep->oversized_units);
     for (int s = 0; s < KILN_NSPLITS; s++)

@@ -1,16 +1,14 @@
 /* Leakage audit. Equal-key relations are found by sorting item indices by the key; near
- * duplicates by the multi-index search of neardup.c, so the audit stays near-linear. */
+ * duplicates come checked from the near-duplicate stage, so the audit stays near-linear. */
 #include "audit.h"
 
 #include <stdlib.h>
 #include <string.h>
 
 #include "checked.h"
-#include "disjoint.h"
-#include "neardup.h"
 
-static const char *const kind_names[KILN_LEAK_KINDS] = {"group", "identical-file",
-                                                         "identical-pixels", "near-duplicate"};
+static const char *const kind_names[KILN_LEAK_KINDS] = {
+    "group", "identical-file", "identical-pixels", "identical-record", "near-duplicate"};
 
 const char *kiln_leak_kind_name(int kind)
 {
@@ -30,7 +28,7 @@ static int add_leak(struct kiln_audit *a, int kind, const uint32_t *items, size_
     if (!kiln_grow((void **)&a->leaks, &a->cap, a->nleaks + 1, sizeof *a->leaks) ||
         !kiln_grow((void **)&a->items, &a->icap, a->nitems + n, sizeof *a->items))
         return -1;
-    a->leaks[a->nleaks++] = (struct kiln_leak){kind, a->nitems, n};
+    a->leaks[a->nleaks++] = (struct kiln_leak){.kind = kind, .first = a->nitems, .count = n};
     memcpy(a->items + a->nitems, items, n * sizeof *items);
     a->nitems += n;
     a->per_kind[kind]++;
@@ -49,10 +47,11 @@ static int cmp_digest(const void *x, const void *y)
     return c ? c : (a->index > b->index) - (a->index < b->index);
 }
 
-static int cmp_u64(const void *x, const void *y)
+static int cmp_record(const void *x, const void *y)
 {
-    uint64_t a = *(const uint64_t *)x, b = *(const uint64_t *)y;
-    return (a > b) - (a < b);
+    const struct keyed *a = x, *b = y;
+    int c = memcmp(a->key, b->key, KILN_RECORD_DIGEST_LEN);
+    return c ? c : (a->index > b->index) - (a->index < b->index);
 }
 
 static int cmp_string(const void *x, const void *y)
@@ -63,7 +62,8 @@ static int cmp_string(const void *x, const void *y)
 }
 
 /* Clusters of equal key among split items; a cluster whose items have two splits is a leak. */
-static int equal_key_leaks(const struct kiln_catalog *cat, int kind, struct keyed *buf,
+static int equal_key_leaks(const struct kiln_catalog *cat, int kind,
+                           const uint8_t (*record)[KILN_RECORD_DIGEST_LEN], struct keyed *buf,
                            uint32_t *tmp, struct kiln_audit *a)
 {
     size_t n = 0;
@@ -77,14 +77,19 @@ static int equal_key_leaks(const struct kiln_catalog *cat, int kind, struct keye
             buf[n++] = (struct keyed){it->sha256, (uint32_t)i};
         else if (kind == KILN_LEAK_PIXELS && it->has_pixels)
             buf[n++] = (struct keyed){it->pixel_sha256, (uint32_t)i};
+        else if (kind == KILN_LEAK_RECORD && (record || it->has_record))
+            buf[n++] = (struct keyed){record ? record[i] : it->record_digest, (uint32_t)i};
     }
-    int (*cmp)(const void *, const void *) = kind == KILN_LEAK_GROUP ? cmp_string : cmp_digest;
-    qsort(buf, n, sizeof *buf, cmp);
+    int (*cmp)(const void *, const void *) = kind == KILN_LEAK_GROUP    ? cmp_string
+                                             : kind == KILN_LEAK_RECORD ? cmp_record
+                                                                        : cmp_digest;
+    const size_t len = kind == KILN_LEAK_RECORD ? KILN_RECORD_DIGEST_LEN : KILN_SHA256_LEN;
+    if (n > 1)
+        qsort(buf, n, sizeof *buf, cmp);
     for (size_t i = 0; i < n;) {
         size_t j = i + 1;
-        while (j < n && (kind == KILN_LEAK_GROUP
-                             ? strcmp(buf[i].key, buf[j].key) == 0
-                             : memcmp(buf[i].key, buf[j].key, KILN_SHA256_LEN) == 0))
+        while (j < n && (kind == KILN_LEAK_GROUP ? strcmp(buf[i].key, buf[j].key) == 0
+                                                 : memcmp(buf[i].key, buf[j].key, len) == 0))
             j++;
         bool mixed = false;
         for (size_t k = i + 1; k < j && !mixed; k++)
@@ -100,79 +105,46 @@ static int equal_key_leaks(const struct kiln_catalog *cat, int kind, struct keye
     return 0;
 }
 
-/* Near duplicates: the connected components of "within BITS bits" among split items with a
- * difference hash, found from links (neardup.h), so a cluster of k alike pictures costs O(k)
- * rather than k^2 pairs. A cluster whose items lie in two splits is one finding, its items in
- * catalogue order; findings are ordered by their first item. */
-static int near_clusters(const struct kiln_catalog *cat, unsigned bits, uint32_t *tmp,
-                         struct kiln_audit *a, struct kiln_err *err)
+/* Near duplicates: every checked link (whatever the unit rule decided) whose two items lie in
+ * different splits, in the links' order (by items). */
+static int near_leaks(const struct kiln_catalog *cat, const struct kiln_nearlinks *near,
+                      struct kiln_audit *a)
 {
-    size_t n = cat->n;
-    uint64_t *hash = kiln_alloc_array(n ? n : 1, sizeof *hash);
-    uint8_t *use = kiln_alloc_array(n ? n : 1, sizeof *use);
-    struct kiln_uf uf = {kiln_alloc_array(n ? n : 1, sizeof(uint32_t))};
-    uint64_t *order = kiln_alloc_array(n ? n : 1, sizeof *order);
-    struct kiln_pairs links = {NULL, 0, 0};
-    int rc = KILN_OK;
-    if (!hash || !use || !uf.parent || !order) {
-        rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate audit hashes for %zu items", n);
-        goto done;
-    }
-    for (size_t i = 0; i < n; i++) {
-        const struct kiln_item *it = &cat->items[i];
-        use[i] = it->split != KILN_SPLIT_NONE && it->has_pixels;
-        hash[i] = use[i] ? it->phash : 0;
-        uf.parent[i] = (uint32_t)i;
-    }
-    rc = kiln_neardup_links(hash, use, n, bits, &links, err);
-    if (rc)
-        goto done;
-    for (size_t k = 0; k < links.n; k++)
-        kiln_uf_union(&uf, links.pair[k][0], links.pair[k][1]);
-    /* (root, item) keys sort each cluster together, clusters by their smallest item. */
-    size_t m = 0;
-    for (size_t i = 0; i < n; i++)
-        if (use[i])
-            order[m++] = (uint64_t)kiln_uf_find(&uf, (uint32_t)i) << 32 | i;
-    qsort(order, m, sizeof *order, cmp_u64);
-    for (size_t i = 0, j; i < m && !rc; i = j) {
-        bool mixed = false;
-        int s0 = cat->items[(uint32_t)order[i]].split;
-        for (j = i + 1; j < m && order[j] >> 32 == order[i] >> 32; j++)
-            mixed |= cat->items[(uint32_t)order[j]].split != s0;
-        if (!mixed)
+    for (size_t k = 0; k < near->n; k++) {
+        const struct kiln_nearlink *l = &near->link[k];
+        if (l->c.a >= cat->n || l->c.b >= cat->n)
             continue;
-        for (size_t k = i; k < j; k++)
-            tmp[k - i] = (uint32_t)order[k];
-        if (add_leak(a, KILN_LEAK_NEAR, tmp, j - i))
-            rc = kiln_err_set(err, KILN_ENOMEM, "cannot record audit findings");
+        const int sa = cat->items[l->c.a].split, sb = cat->items[l->c.b].split;
+        if (sa == KILN_SPLIT_NONE || sb == KILN_SPLIT_NONE || sa == sb)
+            continue;
+        const uint32_t pair[2] = {l->c.a, l->c.b};
+        if (add_leak(a, KILN_LEAK_NEAR, pair, 2))
+            return -1;
+        a->leaks[a->nleaks - 1].near = *l;
     }
-done:
-    kiln_pairs_free(&links);
-    free(hash);
-    free(use);
-    free(uf.parent);
-    free(order);
-    return rc;
+    return 0;
 }
 
-int kiln_audit_run(const struct kiln_catalog *cat, int near_bits, const bool *present,
+int kiln_audit_run(const struct kiln_catalog *cat, const struct kiln_nearlinks *near,
+                   const uint8_t (*record)[KILN_RECORD_DIGEST_LEN], const bool *present,
                    struct kiln_audit *out, struct kiln_err *err)
 {
     memset(out, 0, sizeof *out);
-    out->near_bits = near_bits;
+    out->near_checked = near != NULL;
+    if (near)
+        out->near_params = near->params;
     struct keyed *buf = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *buf);
     uint32_t *tmp = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *tmp);
     int rc = KILN_OK;
     if (!buf || !tmp)
         rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate audit tables");
-    for (int kind = KILN_LEAK_GROUP; !rc && kind <= KILN_LEAK_PIXELS; kind++)
-        if (equal_key_leaks(cat, kind, buf, tmp, out))
+    for (int kind = KILN_LEAK_GROUP; !rc && kind <= KILN_LEAK_RECORD; kind++)
+        if (equal_key_leaks(cat, kind, record, buf, tmp, out))
             rc = kiln_err_set(err, KILN_ENOMEM, "cannot record audit findings");
     free(buf);
-    if (!rc && near_bits >= 0)
-        rc = near_clusters(cat, (unsigned)near_bits, tmp, out, err);
     free(tmp);
+    if (!rc && near && near_leaks(cat, near, out))
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot record audit findings");
     /* Classes missing from a split that exists while present elsewhere. */
     if (!rc && cat->nclasses) {
         size_t *count = calloc((size_t)KILN_NSPLITS * cat->nclasses, sizeof *count);

@@ -87,6 +87,8 @@ void kiln_catalog_init(struct kiln_catalog *cat)
 
 void kiln_catalog_free(struct kiln_catalog *cat)
 {
+    if (cat->fps && cat->fps_close)
+        cat->fps_close(cat->fps);
     free(cat->items);
     free(cat->classes);
     kiln_arena_free(&cat->strings);

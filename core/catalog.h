@@ -41,6 +41,12 @@ enum kiln_split_id { KILN_SPLIT_TRAIN = 0, KILN_SPLIT_VAL = 1, KILN_SPLIT_TEST =
 const char *kiln_split_name(int split); /* "train", "val", "test", "" for none */
 int kiln_split_parse(const char *name);  /* -1 for "" or unknown */
 
+#define KILN_RECORD_DIGEST_LEN 16
+#define KILN_FP_NONE UINT32_MAX /* no fingerprint (no decode, or a hand-made catalogue) */
+/* The catalogue was read without a store: its fingerprints were checked, not kept, so it must
+ * not be written back (formats/files/catalog_csv.c refuses). */
+#define KILN_FP_SKIPPED (UINT32_MAX - 1)
+
 struct kiln_item {
     const char *source; /* source root as given on the command line */
     const char *path;   /* relative path under the source (of the archive, for members) */
@@ -54,10 +60,11 @@ struct kiln_item {
      * moved files by content); NULL = the recorded source, path and member. Not stored in CSV. */
     const char *from_source, *from_path, *from_member;
     uint64_t size;
-    uint64_t phash; /* 64-bit difference hash of the oriented image (docs/split.md) */
     uint64_t unit_key; /* set by split: the keyed hash of the item's unit */
     uint8_t sha256[KILN_SHA256_LEN];       /* of the file bytes */
     uint8_t pixel_sha256[KILN_SHA256_LEN]; /* of the canonical decoded pixels (docs/split.md) */
+    /* kiln build: the first 16 bytes of the SHA-256 of the item's record (docs/split.md) */
+    uint8_t record_digest[KILN_RECORD_DIGEST_LEN];
     uint32_t width, height; /* oriented size */
     int32_t class_index;    /* position of label in the sorted class list, -1 = none */
     uint16_t pages;
@@ -65,13 +72,17 @@ struct kiln_item {
     uint8_t stored_depth;    /* bits per sample in the file */
     uint8_t orientation;     /* EXIF orientation as stored (1-8) */
     uint8_t status;
-    uint8_t has_pixels; /* phash and pixel_sha256 are valid */
+    uint8_t has_pixels; /* pixel_sha256 is valid */
+    uint8_t has_record; /* record_digest is valid */
     uint8_t has_sha;    /* the bytes were read and sha256 is valid (also for empty files) */
-    uint8_t pixel_scale; /* the decode the pixel digest and hash come from: 1, or a JPEG DCT
-                            reduction 2, 4, 8 (kiln build; docs/split.md) */
+    uint8_t pixel_scale; /* the decode the pixel digest and fingerprint come from: 1, or a
+                            JPEG DCT reduction 2, 4, 8 (kiln build; docs/split.md) */
+    int8_t split;        /* KILN_SPLIT_NONE until split */
     uint32_t pool_slot;  /* kiln build: the item's record in the record pool, or UINT32_MAX */
-    int8_t split;       /* KILN_SPLIT_NONE until split */
+    uint32_t fp_slot;    /* the near-duplicate fingerprint in cat->fps, or KILN_FP_NONE */
 };
+
+struct kiln_fpstore; /* formats/files/fpstore.h */
 
 struct kiln_catalog {
     struct kiln_item *items;
@@ -79,6 +90,10 @@ struct kiln_catalog {
     char **classes; /* byte-wise sorted distinct labels of usable items; strings in the arena */
     size_t nclasses;
     struct kiln_arena strings;
+    /* The near-duplicate fingerprints of the items (fp_slot), or NULL. Whoever sets it sets
+     * fps_close, which kiln_catalog_free calls (core/ does no I/O itself). */
+    struct kiln_fpstore *fps;
+    void (*fps_close)(struct kiln_fpstore *);
 };
 
 void kiln_catalog_init(struct kiln_catalog *cat);

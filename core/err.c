@@ -59,7 +59,7 @@ const char *kiln_code_name(int code)
 {
     static const char *const names[] = {
         "ok", "invalid", "io", "nomem", "corrupt", "truncated", "unsupported", "too-large",
-        "mismatch", "internal", "write",
+        "mismatch", "internal", "leak", "write",
     };
     if (code < 0 || code >= (int)(sizeof names / sizeof names[0]))
         return "unknown";

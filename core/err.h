@@ -15,7 +15,8 @@ enum kiln_code {
     KILN_ETOOLARGE = 7,    /* input exceeds a configured limit (checked before allocating) */
     KILN_EMISMATCH = 8,    /* a checksum or recorded value does not match */
     KILN_EINTERNAL = 9,    /* a broken invariant: a bug in kiln */
-    KILN_EWRITE = 10       /* an output file could not be written (full disk, permissions, an
+    KILN_ELEAK = 10,       /* the output would hold identical content in two splits */
+    KILN_EWRITE = 11       /* an output file could not be written (full disk, permissions, an
                               interruption): the message names the output, never an input */
 };
 

@@ -1,8 +1,6 @@
 /* The pixel digest and the difference hash of a decoded picture (docs/split.md). */
 #include "imghash.h"
 
-#include "convert.h"
-#include "resize.h"
 #include "sha256.h"
 
 static int host_little_endian(void)
@@ -42,36 +40,4 @@ int kiln_imghash_pixels(const struct kiln_image *img, uint8_t out[32], struct ki
     rc = kiln_sha256_final(&ctx, out, err);
     kiln_sha256_free(&ctx);
     return rc;
-}
-
-int kiln_imghash_dhash(const struct kiln_image *img, struct kiln_image scratch[2],
-                       struct kiln_resizer *rs, uint64_t *out, struct kiln_err *err)
-{
-    static const uint8_t white[3] = {255, 255, 255};
-    const struct kiln_image *cur = img;
-    int rc;
-    if (cur->channels != 1) {
-        rc = kiln_convert_channels(cur, 1, white, &scratch[0], err);
-        if (rc)
-            return rc;
-        cur = &scratch[0];
-    }
-    if (cur->depth != 8) {
-        struct kiln_image *dst = cur == &scratch[0] ? &scratch[1] : &scratch[0];
-        rc = kiln_convert_depth(cur, 8, dst, err);
-        if (rc)
-            return rc;
-        cur = dst;
-    }
-    struct kiln_image *small = cur == &scratch[0] ? &scratch[1] : &scratch[0];
-    rc = kiln_resize(rs, cur, NULL, 9, 8, KILN_FILTER_BOX, small, err);
-    if (rc)
-        return rc;
-    const uint8_t *p = small->data;
-    uint64_t h = 0;
-    for (int y = 0; y < 8; y++)
-        for (int x = 0; x < 8; x++)
-            h = h << 1 | (p[y * 9 + x + 1] > p[y * 9 + x]);
-    *out = h;
-    return KILN_OK;
 }

@@ -1,4 +1,4 @@
-/* Multi-index hashing over 64-bit difference hashes (method and cost in neardup.h). Each of the
+/* Multi-index hashing over hashes of up to 64 bits (method and cost in neardup.h). Each of the
  * radius + 1 substring tables is built in turn by a stable counting sort of (hash, index)
  * records on the substring's value, then every bucket of equal values is checked pair by pair;
  * the working space is reused from table to table, so memory stays O(n). */
@@ -434,71 +434,5 @@ done:
     free(count);
     free(in);
     free(ball);
-    return rc;
-}
-
-struct hashed {
-    uint64_t hash;
-    uint32_t index;
-};
-
-static int cmp_hashed(const void *x, const void *y)
-{
-    const struct hashed *a = x, *b = y;
-    if (a->hash != b->hash)
-        return a->hash < b->hash ? -1 : 1;
-    return (a->index > b->index) - (a->index < b->index);
-}
-
-int kiln_neardup_links(const uint64_t *hash, const uint8_t *use, size_t n, unsigned radius,
-                       struct kiln_pairs *out, struct kiln_err *err)
-{
-    if (radius > KILN_NEARDUP_MAX_RADIUS || n > UINT32_MAX || !out || (!hash && n > 0))
-        return kiln_neardup_pairs_masked(hash, use, n, radius, out, err); /* its messages */
-    size_t nu = 0;
-    for (size_t i = 0; i < n; i++)
-        nu += !use || use[i];
-    if (nu < 2)
-        return KILN_OK;
-    struct hashed *rec = kiln_alloc_array(nu, sizeof *rec);
-    uint64_t *value = kiln_alloc_array(nu, sizeof *value);
-    uint32_t *rep = kiln_alloc_array(nu, sizeof *rep);
-    struct kiln_pairs near = {NULL, 0, 0};
-    size_t n0 = out->n, nd = 0;
-    int rc = KILN_OK;
-    if (!rec || !value || !rep) {
-        rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the near-duplicate index for %zu hashes", nu);
-        goto done;
-    }
-    for (size_t i = 0, k = 0; i < n; i++)
-        if (!use || use[i])
-            rec[k++] = (struct hashed){hash[i], (uint32_t)i};
-    qsort(rec, nu, sizeof *rec, cmp_hashed);
-    /* Equal hashes: link each to the smallest index holding that value, which represents it. */
-    for (size_t k = 0; k < nu && !rc; k++) {
-        if (k == 0 || rec[k].hash != rec[k - 1].hash) {
-            value[nd] = rec[k].hash;
-            rep[nd++] = rec[k].index;
-            continue;
-        }
-        if (push_pair(out, rep[nd - 1], rec[k].index))
-            rc = kiln_err_set(err, KILN_ENOMEM, "cannot grow the near-duplicate link list");
-    }
-    if (!rc)
-        rc = kiln_neardup_pairs(value, nd, radius, &near, err);
-    for (size_t k = 0; k < near.n && !rc; k++) {
-        uint32_t a = rep[near.pair[k][0]], b = rep[near.pair[k][1]];
-        if (push_pair(out, a < b ? a : b, a < b ? b : a))
-            rc = kiln_err_set(err, KILN_ENOMEM, "cannot grow the near-duplicate link list");
-    }
-    if (rc)
-        out->n = n0;
-    else if (out->n > n0)
-        sort_output(out->pair + n0, out->n - n0, n);
-done:
-    kiln_pairs_free(&near);
-    free(rec);
-    free(value);
-    free(rep);
     return rc;
 }

@@ -1,12 +1,10 @@
-/* Near-duplicate search: every pair of 64-bit difference hashes within a Hamming radius, found
- * exactly (the same pairs as an all-pairs comparison) with multi-index hashing (Norouzi, Punjani
- * and Fleet, "Fast Search in Hamming Space with Multi-Index Hashing", CVPR 2012). The pairs feed
- * the near-duplicate rule of the split (docs/split.md, section 2 item 4) through struct
- * kiln_pairs (units.h).
+/* Near-duplicate search: every pair of hashes within a Hamming radius, found exactly (the same
+ * pairs as an all-pairs comparison) with multi-index hashing (Norouzi, Punjani and Fleet, "Fast
+ * Search in Hamming Space with Multi-Index Hashing", CVPR 2012). The candidate searches of
+ * nearlink.c (docs/near-duplicates.md section 2) are built on kiln_neardup_search.
  *
- * Method. The nbits bits (64 for difference hashes) are cut into m contiguous substrings,
- * numbered t = 0..m-1 from the most significant bit (the first bit of a difference hash,
- * docs/split.md section 7). With nbits = q*m + e (0 <= e < m), substrings 0..e-1 have q + 1
+ * Method. The nbits bits (64 for kiln_neardup_pairs) are cut into m contiguous substrings,
+ * numbered t = 0..m-1 from the most significant bit. With nbits = q*m + e (0 <= e < m), substrings 0..e-1 have q + 1
  * bits and e..m-1 have q bits, so substring t starts at bit offset t*q + min(t, e) counted from
  * the most significant bit. Two hashes within distance radius differ in at most radius bits, so
  * by the pigeonhole principle they are within s = radius / m (rounded down) bits of each other on
@@ -42,7 +40,6 @@
 #include "units.h"
 
 #define KILN_NEARDUP_MAX_RADIUS 16    /* so at most 17 substrings of at least 3 bits */
-#define KILN_NEARDUP_DEFAULT_RADIUS 6 /* --merge-near-duplicates without a value */
 
 /* Appends to out every unordered pair (i, j), i < j < n, with Hamming distance
  * popcount(hash[i] ^ hash[j]) <= radius, as out->pair[k] = {i, j}. The appended pairs are
@@ -59,23 +56,11 @@ int kiln_neardup_pairs(const uint64_t *hash, size_t n, unsigned radius, struct k
                        struct kiln_err *err);
 
 /* As kiln_neardup_pairs, but only items with use[i] != 0 take part (catalogue rows without a
- * difference hash, or unusable rows, pass use[i] = 0; their hash[i] is never read). Indices in
+ * hash, or unusable rows, pass use[i] = 0; their hash[i] is never read). Indices in
  * the output are still positions in hash (0..n-1), not ranks among used items. use == NULL
  * means every item takes part. Same errors. */
 int kiln_neardup_pairs_masked(const uint64_t *hash, const uint8_t *use, size_t n,
                               unsigned radius, struct kiln_pairs *out, struct kiln_err *err);
-
-/* Links whose connected components are exactly those of the pairs kiln_neardup_pairs_masked
- * would return, without listing every pair: items with equal hashes are each linked to the
- * smallest index holding that hash (k - 1 links for k equal hashes, where all pairs would be
- * k(k-1)/2), and the multi-index search runs over the distinct hash values only, each pair of
- * values within the radius becoming one link between their smallest indices. So a data set
- * of many blank or identical pictures (all hashing alike) costs O(n log n) time and memory
- * instead of O(n^2). Links are appended to out sorted by (i, j) with i < j; same arguments,
- * errors and contract on out as kiln_neardup_pairs_masked. The union-find of units (units.c)
- * and the audit's clusters (audit.c) need only the components, so both use this. */
-int kiln_neardup_links(const uint64_t *hash, const uint8_t *use, size_t n, unsigned radius,
-                       struct kiln_pairs *out, struct kiln_err *err);
 
 /* The general search behind the functions above. hash[i] holds a hash of nbits bits (1 to 64)
  * in its most significant bits; the bits below are ignored. The substrings of the method are cut

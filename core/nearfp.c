@@ -113,49 +113,138 @@ static inline uint32_t luma_at(const struct kiln_image *img, const void *row, ui
     return ch >= 3 ? (299u * r + 587u * g + 114u * b + 500u) / 1000u : r;
 }
 
+/* One pixel row's luma (and colour composited over white, when 3+ channels) into lum and px.
+ * The common cases (8 bits without alpha) get loops of their own; the sums they feed are the
+ * same integers either way. */
+static void row_values(const struct kiln_image *img, const uint8_t *line, uint32_t *lum,
+                       uint32_t *px[3])
+{
+    const uint32_t W = img->width;
+    if (img->depth == 8 && img->channels == 1) {
+        for (uint32_t x = 0; x < W; x++)
+            lum[x] = line[x];
+        return;
+    }
+    if (img->depth == 8 && img->channels == 3) {
+        for (uint32_t x = 0; x < W; x++) {
+            const uint32_t r = line[3 * x], g = line[3 * x + 1], b = line[3 * x + 2];
+            px[0][x] = r;
+            px[1][x] = g;
+            px[2][x] = b;
+            lum[x] = (299u * r + 587u * g + 114u * b + 500u) / 1000u;
+        }
+        return;
+    }
+    for (uint32_t x = 0; x < W; x++) {
+        uint32_t c[3];
+        lum[x] = luma_at(img, line, x, c);
+        if (img->channels >= 3)
+            for (int k = 0; k < 3; k++)
+                px[k][x] = c[k];
+    }
+}
+
+/* Where the cells of one axis fall on its pixels: pixel t covers [32t, 32t + 32) and cell c
+ * covers [cN, cN + N) (N the axis's pixels). With N >= 32 every pixel inside a cell has weight
+ * 32, so a cell is the run of pixels first[c]..last[c], the two ends weighted by their exact
+ * overlaps wf[c] and wl[c] (a single pixel when first == last, weighted wf). Returns 0 when
+ * N < 32, where a pixel can meet more than two cells (the general loop below). */
+struct axis_runs {
+    uint32_t first[G], last[G];
+    uint32_t wf[G], wl[G];
+};
+
+static int axis_runs(uint64_t N, struct axis_runs *r)
+{
+    if (N < G)
+        return 0;
+    for (uint64_t c = 0; c < G; c++) {
+        const uint64_t lo = c * N, hi = lo + N, f = lo / 32, l = (hi - 1) / 32;
+        const uint64_t fe = 32 * f + 32, ls = 32 * l;
+        r->first[c] = (uint32_t)f;
+        r->last[c] = (uint32_t)l;
+        r->wf[c] = (uint32_t)((fe < hi ? fe : hi) - lo);
+        r->wl[c] = (uint32_t)(hi - (ls > lo ? ls : lo));
+    }
+    return 1;
+}
+
+/* The weighted sum of a row's values over cell c's run. */
+static inline uint64_t run_sum(const struct axis_runs *r, unsigned c, const uint32_t *v)
+{
+    const uint32_t f = r->first[c], l = r->last[c];
+    if (f == l)
+        return (uint64_t)r->wf[c] * v[f];
+    uint64_t inner = 0;
+    for (uint32_t x = f + 1; x < l; x++)
+        inner += v[x];
+    return 32 * inner + (uint64_t)r->wf[c] * v[f] + (uint64_t)r->wl[c] * v[l];
+}
+
+/* The cells pixel t of an axis of N pixels meets, with weights: the general case. */
+static unsigned pixel_cells(uint64_t t, uint64_t N, uint32_t *cell, uint64_t *w)
+{
+    const uint64_t lo = 32 * t, hi = lo + 32;
+    unsigned k = 0;
+    for (uint64_t c = lo / N; c < G && c * N < hi; c++) {
+        const uint64_t cl = c * N, ch = cl + N;
+        cell[k] = (uint32_t)c;
+        w[k++] = (hi < ch ? hi : ch) - (lo > cl ? lo : cl);
+    }
+    return k;
+}
+
 /* Cell means of the luma on the G x G grid, in 1/16 units of the 16-bit scale. Pixel x covers
  * [32x, 32x + 32) and cell i covers [iW, iW + W) in units of 1/(32W) of the width, so every
- * weight is an integer overlap and each cell's weights sum to W (and H vertically). */
-static void grid_means(const struct kiln_image *img, int32_t g[G][G], int64_t rgb[3][G][G])
+ * weight is an integer overlap and each cell's weights sum to W (and H vertically). Returns
+ * KILN_ENOMEM when the row buffers cannot be had. */
+static int grid_means(const struct kiln_image *img, int32_t g[G][G], int64_t rgb[3][G][G])
 {
     const uint64_t W = img->width, H = img->height;
     const int colour = img->channels >= 3;
+    uint32_t *lum = malloc(W * sizeof *lum * (colour ? 4 : 1));
+    if (!lum)
+        return KILN_ENOMEM;
+    uint32_t *px[3] = {lum + W, lum + 2 * W, lum + 3 * W};
+    struct axis_runs xr;
+    const int fast = axis_runs(W, &xr);
     uint64_t sum[G][G], csum[3][G][G];
     memset(sum, 0, sizeof sum);
     if (colour)
         memset(csum, 0, sizeof csum);
-    uint32_t j = 0; /* first cell row the current pixel row overlaps */
     for (uint64_t y = 0; y < H; y++) {
         uint64_t row[G] = {0}, crow[3][G] = {{0}};
-        const uint8_t *line = (const uint8_t *)img->data + y * img->stride;
-        uint32_t i = 0;
-        for (uint64_t x = 0; x < W; x++) {
-            uint32_t px[3];
-            uint64_t v = luma_at(img, line, (uint32_t)x, px);
-            uint64_t lo = 32 * x, hi = lo + 32;
-            while ((i + 1) * W <= lo)
-                i++;
-            for (uint32_t c = i; c < G && c * W < hi; c++) {
-                uint64_t cl = c * W, ch = cl + W, w = (hi < ch ? hi : ch) - (lo > cl ? lo : cl);
-                row[c] += w * v;
-                if (colour)
-                    for (int k = 0; k < 3; k++)
-                        crow[k][c] += w * px[k];
+        row_values(img, (const uint8_t *)img->data + y * img->stride, lum, px);
+        if (fast) {
+            for (unsigned c = 0; c < G; c++) {
+                row[c] = run_sum(&xr, c, lum);
+                for (int k = 0; colour && k < 3; k++)
+                    crow[k][c] = run_sum(&xr, c, px[k]);
+            }
+        } else {
+            for (uint64_t x = 0; x < W; x++) {
+                uint32_t cell[G];
+                uint64_t w[G];
+                const unsigned n = pixel_cells(x, W, cell, w);
+                for (unsigned k = 0; k < n; k++) {
+                    row[cell[k]] += w[k] * lum[x];
+                    for (int j = 0; colour && j < 3; j++)
+                        crow[j][cell[k]] += w[k] * px[j][x];
+                }
             }
         }
-        uint64_t lo = 32 * y, hi = lo + 32;
-        while ((j + 1) * H <= lo)
-            j++;
-        for (uint32_t r = j; r < G && r * H < hi; r++) {
-            uint64_t rl = r * H, rh = rl + H, w = (hi < rh ? hi : rh) - (lo > rl ? lo : rl);
+        uint32_t cell[G];
+        uint64_t w[G];
+        const unsigned n = pixel_cells(y, H, cell, w);
+        for (unsigned k = 0; k < n; k++)
             for (uint32_t c = 0; c < G; c++) {
-                sum[r][c] += w * row[c];
+                sum[cell[k]][c] += w[k] * row[c];
                 if (colour)
-                    for (int k = 0; k < 3; k++)
-                        csum[k][r][c] += w * crow[k][c];
+                    for (int j = 0; j < 3; j++)
+                        csum[j][cell[k]][c] += w[k] * crow[j][c];
             }
-        }
     }
+    free(lum);
     /* Each cell's weights total W * H; 8-bit samples move to the 16-bit scale (x 257). */
     const unsigned __int128 scale = 16u * (img->depth == 8 ? 257u : 1u), area = W * H;
     for (int r = 0; r < G; r++)
@@ -164,6 +253,7 @@ static void grid_means(const struct kiln_image *img, int32_t g[G][G], int64_t rg
             for (int k = 0; k < 3; k++)
                 rgb[k][r][c] = colour ? (int64_t)((csum[k][r][c] * scale + area / 2) / area) : 0;
         }
+    return KILN_OK;
 }
 
 /* The grid (and colour grid, which the caller frees) of a valid image. */
@@ -178,9 +268,11 @@ static int checked_grid(const struct kiln_image *img, int32_t g[G][G], int64_t (
                             "%ux%u is too large for the near-duplicate fingerprint (2^40 pixels)",
                             img->width, img->height);
     *rgb = malloc(3 * sizeof **rgb);
-    if (!*rgb)
-        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate the fingerprint's colour grid");
-    grid_means(img, g, *rgb);
+    if (!*rgb || grid_means(img, g, *rgb) != KILN_OK) {
+        free(*rgb);
+        *rgb = NULL;
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate the fingerprint's grids");
+    }
     return KILN_OK;
 }
 
@@ -457,6 +549,64 @@ int kiln_nearfp_compute(const struct kiln_image *img, struct kiln_nearfp *fp,
     if (fp->info < KILN_NEARFP_MIN_INFO)
         fp->flags |= KILN_NEARFP_LOWINFO;
     return KILN_OK;
+}
+
+/* ---- bytes ------------------------------------------------------------------------------------ */
+
+static void put_be(uint8_t *p, uint64_t v, unsigned n)
+{
+    for (unsigned i = 0; i < n; i++)
+        p[i] = (uint8_t)(v >> (8 * (n - 1 - i)));
+}
+
+static uint64_t get_be(const uint8_t *p, unsigned n)
+{
+    uint64_t v = 0;
+    for (unsigned i = 0; i < n; i++)
+        v = v << 8 | p[i];
+    return v;
+}
+
+#define HUE_CELLS (KILN_NEARFP_HUE * KILN_NEARFP_HUE)
+
+void kiln_nearfp_encode(const struct kiln_nearfp *fp, uint8_t out[KILN_NEARFP_BYTES])
+{
+    static_assert(24 + 2 * HUE_CELLS + NCELL == KILN_NEARFP_BYTES, "the documented layout");
+    out[0] = KILN_NEARFP_VERSION;
+    out[1] = fp->flags;
+    put_be(out + 2, fp->info, 2);
+    put_be(out + 4, fp->hash, 8);
+    put_be(out + 12, fp->centre, 8);
+    put_be(out + 20, fp->chroma_scale, 4);
+    for (int i = 0; i < HUE_CELLS; i++)
+        for (int k = 0; k < 2; k++)
+            out[24 + 2 * i + k] = (uint8_t)fp->chroma[i][k];
+    memcpy(out + 24 + 2 * HUE_CELLS, fp->thumb, NCELL);
+}
+
+int kiln_nearfp_decode(const uint8_t in[KILN_NEARFP_BYTES], struct kiln_nearfp *fp)
+{
+    memset(fp, 0, sizeof *fp);
+    if (in[0] != KILN_NEARFP_VERSION || (in[1] & ~(KILN_NEARFP_LOWINFO | KILN_NEARFP_SMALL)) ||
+        ((in[1] & KILN_NEARFP_SMALL) && !(in[1] & KILN_NEARFP_LOWINFO)))
+        return -1;
+    fp->flags = in[1];
+    fp->info = (uint16_t)get_be(in + 2, 2);
+    fp->hash = get_be(in + 4, 8);
+    fp->centre = get_be(in + 12, 8);
+    fp->chroma_scale = (uint32_t)get_be(in + 20, 4);
+    if (((fp->hash | fp->centre) & 1) ||
+        (fp->info < KILN_NEARFP_MIN_INFO && !(fp->flags & KILN_NEARFP_LOWINFO)))
+        return -1;
+    for (int i = 0; i < HUE_CELLS; i++)
+        for (int k = 0; k < 2; k++) {
+            int8_t c = (int8_t)in[24 + 2 * i + k];
+            if (c < -127 || (c && !fp->chroma_scale))
+                return -1;
+            fp->chroma[i][k] = c;
+        }
+    memcpy(fp->thumb, in + 24 + 2 * HUE_CELLS, NCELL);
+    return 0;
 }
 
 /* ---- verification ------------------------------------------------------------------------------ */

@@ -52,6 +52,18 @@ struct kiln_nearfp {
     uint8_t thumb[KILN_NEARFP_SIDE * KILN_NEARFP_SIDE]; /* row-major, top row first */
 };
 
+/* The fingerprint as bytes, the form catalog.csv (base64) and the scratch store keep
+ * (docs/formats.md, "near_fingerprint"): version 1, flags, info (2 bytes), hash and centre
+ * (8 bytes each), chroma scale (4 bytes), chroma (32 signed bytes), thumbnail (256 bytes);
+ * integers big-endian. */
+#define KILN_NEARFP_BYTES 312
+#define KILN_NEARFP_VERSION 1
+void kiln_nearfp_encode(const struct kiln_nearfp *fp, uint8_t out[KILN_NEARFP_BYTES]);
+/* Reads the bytes back; -1 (fp undefined) when they cannot come from kiln_nearfp_encode of a
+ * computed fingerprint: another version, unknown flags, a low-information picture without its
+ * flag, bit 0 of a hash set, chroma outside -127..127 or without a scale. */
+int kiln_nearfp_decode(const uint8_t in[KILN_NEARFP_BYTES], struct kiln_nearfp *fp);
+
 /* Computes the fingerprint of img (as displayed: orientation already applied). img must be a
  * valid kiln_image (1-4 channels, depth 8 or 16). Errors: KILN_EINVAL for a bad shape or an
  * empty image; KILN_ETOOLARGE when width * height exceeds 2^40 (the exact sums would not fit). */

@@ -74,7 +74,7 @@ static int search_plain(const uint64_t *h, const uint8_t *use, size_t n, unsigne
     return rc;
 }
 
-int kiln_nearlink_search(const struct kiln_nearfp *fp, size_t n,
+int kiln_nearlink_search(const struct kiln_nearkey *key, size_t n,
                          const struct kiln_nearlink_params *p, unsigned which,
                          struct kiln_nearcands *out, struct kiln_err *err)
 {
@@ -98,12 +98,12 @@ int kiln_nearlink_search(const struct kiln_nearfp *fp, size_t n,
         goto done;
     }
     for (size_t i = 0; i < nrec; i++)
-        use[i] = !(fp[i % n].flags & KILN_NEARFP_LOWINFO);
+        use[i] = !(key[i % n].flags & KILN_NEARFP_LOWINFO);
     switch (which) {
     case 0:
     case 1:
         for (size_t i = 0; i < n; i++)
-            h[i] = which ? fp[i].centre : fp[i].hash;
+            h[i] = which ? key[i].centre : key[i].hash;
         rc = search_plain(h, use, n, KILN_NEARFP_HASH_BITS,
                           which ? p->radius_centre : p->radius_full, NULL, 0,
                           which ? KILN_NEARCAND_CENTRE : KILN_NEARCAND_FULL, out, err);
@@ -111,8 +111,8 @@ int kiln_nearlink_search(const struct kiln_nearfp *fp, size_t n,
     case 2:
     case 3:
         for (size_t i = 0; i < n; i++) {
-            full[i] = fp[i].hash;
-            h[i] = kiln_nearlink_coarse(which == 3 ? fp[i].centre : fp[i].hash);
+            full[i] = key[i].hash;
+            h[i] = kiln_nearlink_coarse(which == 3 ? key[i].centre : key[i].hash);
         }
         rc = search_plain(h, use, n, 35, p->radius_coarse, full, p->coarse_confirm,
                           which == 3 ? KILN_NEARCAND_COARSE_CENTRE : KILN_NEARCAND_COARSE, out,
@@ -124,8 +124,8 @@ int kiln_nearlink_search(const struct kiln_nearfp *fp, size_t n,
          * under o's inverse", found in that orientation's search, so only i < j is kept. */
         const unsigned o = which - 2;
         for (size_t i = 0; i < n; i++) {
-            h[i] = fp[i].hash;
-            h[n + i] = kiln_nearfp_orient_hash(fp[i].hash, o);
+            h[i] = key[i].hash;
+            h[n + i] = kiln_nearfp_orient_hash(key[i].hash, o);
             side[i] = 0;
             side[n + i] = 1;
         }
@@ -150,7 +150,7 @@ done:
     return rc;
 }
 
-int kiln_nearlink_merge(const struct kiln_nearfp *fp, struct kiln_nearcands *parts,
+int kiln_nearlink_merge(const struct kiln_nearkey *key, struct kiln_nearcands *parts,
                         size_t nparts, struct kiln_nearcands *out, struct kiln_err *err)
 {
     out->n = 0;
@@ -182,15 +182,15 @@ int kiln_nearlink_merge(const struct kiln_nearfp *fp, struct kiln_nearcands *par
     for (size_t k = 0; k < m; k++) {
         struct kiln_nearcand *c = &out->c[k];
         unsigned o = c->orientation;
-        uint64_t hb = kiln_nearfp_orient_hash(fp[c->b].hash, o),
-                 cb = kiln_nearfp_orient_hash(fp[c->b].centre, o);
-        c->distance = (uint8_t)__builtin_popcountll(fp[c->a].hash ^ hb);
-        c->centre_distance = (uint8_t)__builtin_popcountll(fp[c->a].centre ^ cb);
+        uint64_t hb = kiln_nearfp_orient_hash(key[c->b].hash, o),
+                 cb = kiln_nearfp_orient_hash(key[c->b].centre, o);
+        c->distance = (uint8_t)__builtin_popcountll(key[c->a].hash ^ hb);
+        c->centre_distance = (uint8_t)__builtin_popcountll(key[c->a].centre ^ cb);
     }
     return KILN_OK;
 }
 
-int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
+int kiln_nearlink_candidates(const struct kiln_nearkey *key, size_t n,
                              const struct kiln_nearlink_params *p, struct kiln_nearcands *out,
                              struct kiln_err *err)
 {
@@ -199,9 +199,9 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
     memset(parts, 0, sizeof parts);
     int rc = KILN_OK;
     for (unsigned w = 0; w < KILN_NEARLINK_SEARCHES && !rc; w++)
-        rc = kiln_nearlink_search(fp, n, p, w, &parts[w], err);
+        rc = kiln_nearlink_search(key, n, p, w, &parts[w], err);
     if (!rc)
-        rc = kiln_nearlink_merge(fp, parts, KILN_NEARLINK_SEARCHES, out, err);
+        rc = kiln_nearlink_merge(key, parts, KILN_NEARLINK_SEARCHES, out, err);
     for (unsigned w = 0; w < KILN_NEARLINK_SEARCHES; w++)
         kiln_nearcands_free(&parts[w]);
     if (rc)
@@ -209,16 +209,19 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
     return rc;
 }
 
+void kiln_nearlink_check(const struct kiln_nearfp *a, const struct kiln_nearfp *b,
+                         const struct kiln_nearcand *c, struct kiln_nearmatch *out)
+{
+    /* Coarse-only candidates (crops, slight turns) must already agree broadly as they are. */
+    const unsigned fine = KILN_NEARCAND_FULL | KILN_NEARCAND_CENTRE | KILN_NEARCAND_TURNED;
+    kiln_nearfp_verify(a, b, c->orientation, c->sources & fine ? 0 : KILN_NEARFP_MIN_SEARCH, out);
+}
+
 void kiln_nearlink_verify(const struct kiln_nearfp *fp, const struct kiln_nearcands *c,
                           size_t from, size_t to, struct kiln_nearmatch *match)
 {
     for (size_t k = from; k < to && k < c->n; k++)
-        kiln_nearfp_verify(&fp[c->c[k].a], &fp[c->c[k].b], c->c[k].orientation,
-                           c->c[k].sources & (KILN_NEARCAND_FULL | KILN_NEARCAND_CENTRE |
-                                              KILN_NEARCAND_TURNED)
-                               ? 0
-                               : KILN_NEARFP_MIN_SEARCH,
-                           &match[k]);
+        kiln_nearlink_check(&fp[c->c[k].a], &fp[c->c[k].b], &c->c[k], &match[k]);
 }
 
 const char *kiln_nearlink_verdict_name(int v)
@@ -233,6 +236,7 @@ struct ranked {
     const struct kiln_nearcand *c;
     const struct kiln_nearmatch *m;
     size_t k;
+    uint64_t tie[2]; /* the last keys of the order */
 };
 
 static int cmp_ranked(const void *x, const void *y)
@@ -246,7 +250,11 @@ static int cmp_ranked(const void *x, const void *y)
         return lp > lq ? -1 : 1;
     if (p->c->distance != q->c->distance)
         return p->c->distance < q->c->distance ? -1 : 1;
-    return cmp_cand(p->c, q->c);
+    /* Then (a, b, orientation) for the candidates of kiln_nearlink_decide; the order they were
+     * given in (the items' content order) for the pipeline's links. */
+    if (p->tie[0] != q->tie[0])
+        return p->tie[0] < q->tie[0] ? -1 : 1;
+    return (p->tie[1] > q->tie[1]) - (p->tie[1] < q->tie[1]);
 }
 
 #define LABEL_NONE (-1)
@@ -266,9 +274,9 @@ static int join_labels(int64_t x, int64_t y, int64_t *out)
     return 1; /* two labels, or a label and an already mixed unit */
 }
 
-int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
-                         const struct kiln_nearcands *c, const struct kiln_nearmatch *match,
-                         unsigned max_pictures, uint8_t *verdict, uint32_t *unit,
+/* The rule over links already ranked (r[0..nr-1], strongest first); verdict[r[t].k] is set. */
+static int decide_ranked(size_t n, const uint32_t *exact, const int32_t *label, struct ranked *r,
+                         size_t nr, unsigned max_pictures, uint8_t *verdict, uint32_t *unit,
                          struct kiln_err *err)
 {
     if (n >= UINT32_MAX)
@@ -277,16 +285,16 @@ int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
         if (exact[i] >= n)
             return kiln_err_set(err, KILN_EINVAL, "exact unit %u of item %zu is out of range",
                                 exact[i], i);
-    for (size_t k = 0; k < c->n; k++)
-        if (c->c[k].a >= n || c->c[k].b >= n)
-            return kiln_err_set(err, KILN_EINVAL, "near-duplicate candidate %zu is out of range", k);
+    for (size_t t = 0; t < nr; t++)
+        if (r[t].c->a >= n || r[t].c->b >= n)
+            return kiln_err_set(err, KILN_EINVAL, "near-duplicate link %zu is out of range",
+                                r[t].k);
     struct kiln_uf uf = {kiln_alloc_array(n ? n : 1, sizeof(uint32_t))};
-    uint32_t *first = kiln_alloc_array(n ? n : 1, sizeof *first), *pictures = NULL;
+    uint32_t *first = kiln_alloc_array(n ? n : 1, sizeof *first);
+    uint32_t *pictures = kiln_alloc_array(n ? n : 1, sizeof *pictures);
     int64_t *labels = kiln_alloc_array(n ? n : 1, sizeof *labels);
-    struct ranked *r = kiln_alloc_array(c->n ? c->n : 1, sizeof *r);
-    pictures = kiln_alloc_array(n ? n : 1, sizeof *pictures);
     int rc = KILN_OK;
-    if (!uf.parent || !first || !labels || !r || !pictures) {
+    if (!uf.parent || !first || !labels || !pictures) {
         rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the unit rule for %zu items", n);
         goto done;
     }
@@ -313,12 +321,6 @@ int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
             j = LABEL_MIXED;
         labels[root] = j;
     }
-    size_t nr = 0;
-    for (size_t k = 0; k < c->n; k++) {
-        verdict[k] = KILN_NEARLINK_UNCHECKED;
-        if (match[k].linked)
-            r[nr++] = (struct ranked){&c->c[k], &match[k], k};
-    }
     qsort(r, nr, sizeof *r, cmp_ranked);
     for (size_t t = 0; t < nr; t++) {
         uint32_t x = kiln_uf_find(&uf, r[t].c->a), y = kiln_uf_find(&uf, r[t].c->b);
@@ -338,13 +340,64 @@ int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
             verdict[r[t].k] = KILN_NEARLINK_LINKED;
         }
     }
-    for (size_t i = 0; i < n; i++)
+    for (size_t i = 0; unit && i < n; i++)
         unit[i] = kiln_uf_find(&uf, (uint32_t)i);
 done:
     free(uf.parent);
     free(first);
     free(labels);
     free(pictures);
+    return rc;
+}
+
+int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
+                         const struct kiln_nearcands *c, const struct kiln_nearmatch *match,
+                         unsigned max_pictures, uint8_t *verdict, uint32_t *unit,
+                         struct kiln_err *err)
+{
+    for (size_t k = 0; k < c->n; k++)
+        if (c->c[k].a >= n || c->c[k].b >= n)
+            return kiln_err_set(err, KILN_EINVAL, "near-duplicate candidate %zu is out of range", k);
+    struct ranked *r = kiln_alloc_array(c->n ? c->n : 1, sizeof *r);
+    if (!r)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate the unit rule for %zu items", n);
+    size_t nr = 0;
+    for (size_t k = 0; k < c->n; k++) {
+        verdict[k] = KILN_NEARLINK_UNCHECKED;
+        if (match[k].linked)
+            r[nr++] = (struct ranked){&c->c[k], &match[k], k,
+                                      {c->c[k].a, (uint64_t)c->c[k].b << 4 | c->c[k].orientation}};
+    }
+    int rc = decide_ranked(n, exact, label, r, nr, max_pictures, verdict, unit, err);
     free(r);
+    return rc;
+}
+
+void kiln_nearlinks_free(struct kiln_nearlinks *l)
+{
+    free(l->link);
+    l->link = NULL;
+    l->n = l->cap = 0;
+}
+
+int kiln_nearlink_decide_links(size_t n, const uint32_t *exact, const int32_t *label,
+                               struct kiln_nearlinks *l, uint32_t *unit, struct kiln_err *err)
+{
+    struct ranked *r = kiln_alloc_array(l->n ? l->n : 1, sizeof *r);
+    uint8_t *verdict = kiln_alloc_array(l->n ? l->n : 1, 1);
+    int rc = KILN_OK;
+    if (!r || !verdict)
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate the unit rule for %zu links", l->n);
+    for (size_t k = 0; !rc && k < l->n; k++)
+        r[k] = (struct ranked){&l->link[k].c, &l->link[k].m, k, {k, 0}};
+    if (!rc)
+        rc = decide_ranked(n, exact, label, r, l->n, l->params.max_pictures, verdict, unit, err);
+    memset(l->per_verdict, 0, sizeof l->per_verdict);
+    for (size_t k = 0; !rc && k < l->n; k++) {
+        l->link[k].verdict = verdict[k];
+        l->per_verdict[verdict[k]]++;
+    }
+    free(r);
+    free(verdict);
     return rc;
 }

@@ -31,6 +31,8 @@
 #include "err.h"
 #include "nearfp.h"
 
+#define KILN_NEAR_ALGORITHM "kiln-near-v1" /* docs/near-duplicates.md */
+
 #define KILN_NEARLINK_RADIUS_FULL 6
 #define KILN_NEARLINK_RADIUS_CENTRE 6
 #define KILN_NEARLINK_RADIUS_TURNED 4
@@ -58,6 +60,18 @@ enum kiln_nearcand_source {
 /* The coarse hash: bits (v, u), u, v < 6, of a 63-bit hash, moved to bit 64 - (6v + u). */
 uint64_t kiln_nearlink_coarse(uint64_t hash);
 
+/* What the searches need of a fingerprint (24 bytes of its 312): the pipeline keeps these in
+ * memory and reads the rest from its scratch store only for the pixel checks. */
+struct kiln_nearkey {
+    uint64_t hash, centre;
+    uint8_t flags; /* enum kiln_nearfp_flag */
+};
+
+static inline struct kiln_nearkey kiln_nearkey_of(const struct kiln_nearfp *fp)
+{
+    return (struct kiln_nearkey){fp->hash, fp->centre, fp->flags};
+}
+
 /* A candidate: item b as displayed under orientation (1-8) may be a copy of item a. */
 struct kiln_nearcand {
     uint32_t a, b; /* a < b */
@@ -74,10 +88,10 @@ struct kiln_nearcands {
 
 void kiln_nearcands_free(struct kiln_nearcands *c);
 
-/* Finds the candidates among fp[0..n-1] into out (emptied first), sorted by (a, b,
+/* Finds the candidates among key[0..n-1] into out (emptied first), sorted by (a, b,
  * orientation), each once. Errors: KILN_EINVAL (bad radius, n >= 2^31), KILN_ENOMEM. It runs
  * the searches below one after the other and merges them. */
-int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
+int kiln_nearlink_candidates(const struct kiln_nearkey *key, size_t n,
                              const struct kiln_nearlink_params *p, struct kiln_nearcands *out,
                              struct kiln_err *err);
 
@@ -87,16 +101,20 @@ int kiln_nearlink_candidates(const struct kiln_nearfp *fp, size_t n,
  * kiln_nearlink_merge puts the parts into out (emptied first) exactly as
  * kiln_nearlink_candidates would, whatever the order the parts were computed in. */
 #define KILN_NEARLINK_SEARCHES 11
-int kiln_nearlink_search(const struct kiln_nearfp *fp, size_t n,
+int kiln_nearlink_search(const struct kiln_nearkey *key, size_t n,
                          const struct kiln_nearlink_params *p, unsigned which,
                          struct kiln_nearcands *out, struct kiln_err *err);
-int kiln_nearlink_merge(const struct kiln_nearfp *fp, struct kiln_nearcands *parts,
+int kiln_nearlink_merge(const struct kiln_nearkey *key, struct kiln_nearcands *parts,
                         size_t nparts, struct kiln_nearcands *out, struct kiln_err *err);
 
 /* Checks candidates [from, to) on pixels into match[from..to-1]. Independent per candidate,
  * so callers may share the range out among threads; the results do not depend on how. */
 void kiln_nearlink_verify(const struct kiln_nearfp *fp, const struct kiln_nearcands *c,
                           size_t from, size_t to, struct kiln_nearmatch *match);
+/* The pixel check of one candidate (what kiln_nearlink_verify does for each), for callers that
+ * hold the two fingerprints rather than an array of all. */
+void kiln_nearlink_check(const struct kiln_nearfp *a, const struct kiln_nearfp *b,
+                         const struct kiln_nearcand *c, struct kiln_nearmatch *out);
 
 enum kiln_nearlink_verdict {
     KILN_NEARLINK_UNCHECKED = 0, /* failed the pixel check: not a link */
@@ -115,5 +133,34 @@ int kiln_nearlink_decide(size_t n, const uint32_t *exact, const int32_t *label,
                          const struct kiln_nearcands *c, const struct kiln_nearmatch *match,
                          unsigned max_pictures, uint8_t *verdict, uint32_t *unit,
                          struct kiln_err *err);
+
+/* The checked links of a catalogue: every candidate that passed the pixel check, with its
+ * evidence and the unit rule's verdict (the input of the split's units and of the audit).
+ * Indices are catalogue rows; a and b are in the order of their file SHA-256 (the order the
+ * searches saw the items in, docs/near-duplicates.md), and the links in the order of
+ * (a, b, orientation) under it, so nothing depends on the catalogue's row order. */
+struct kiln_nearlink {
+    struct kiln_nearcand c;
+    struct kiln_nearmatch m;
+    uint8_t verdict; /* enum kiln_nearlink_verdict */
+};
+
+struct kiln_nearlinks {
+    struct kiln_nearlink *link;
+    size_t n, cap;
+    struct kiln_nearlink_params params;
+    size_t pictures;   /* items with a fingerprint that took part in the searches */
+    size_t lowinfo;    /* items with a low-information fingerprint (exact digests only) */
+    size_t candidates; /* candidate pairs checked on pixels */
+    size_t per_verdict[KILN_NEARLINK_REFUSED_SIZE + 1];
+};
+
+void kiln_nearlinks_free(struct kiln_nearlinks *l);
+
+/* The unit rule over checked links (kiln_nearlink_decide's rule; every link has passed; links
+ * of equal evidence are taken in their order in l): sets each link's verdict and per_verdict.
+ * n, exact, label as for kiln_nearlink_decide; unit may be NULL. */
+int kiln_nearlink_decide_links(size_t n, const uint32_t *exact, const int32_t *label,
+                               struct kiln_nearlinks *l, uint32_t *unit, struct kiln_err *err);
 
 #endif

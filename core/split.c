@@ -6,7 +6,6 @@
 #include <string.h>
 
 #include "checked.h"
-#include "neardup.h"
 #include "sha256.h"
 
 static const char *const mode_names[] = {"exact", "stable"};
@@ -371,30 +370,36 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
     return KILN_OK;
 }
 
-int kiln_split_run(struct kiln_catalog *cat, const struct kiln_split_params *p,
-                   struct kiln_units *units, struct kiln_split_report *rep, struct kiln_err *err)
+void kiln_split_defaults(struct kiln_split_params *p)
 {
-    struct kiln_pairs near = {NULL, 0, 0};
+    struct kiln_err e;
+    bool note;
+    memset(p, 0, sizeof *p);
+    p->near = true;
+    kiln_nearlink_defaults(&p->near_params);
+    kiln_split_parse_ratios("80:10:10", p, &note, &e);
+}
+
+int kiln_split_run(struct kiln_catalog *cat, const struct kiln_split_params *p,
+                   const struct kiln_nearlinks *near, struct kiln_units *units,
+                   struct kiln_split_report *rep, struct kiln_err *err)
+{
+    struct kiln_pairs joins = {NULL, 0, 0};
     int rc = KILN_OK;
-    if (p->near_bits >= 0) {
-        /* Only ok items with a difference hash take part. Units need the components only, so
-         * links stand in for the full pair list (neardup.h). */
-        uint64_t *hash = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *hash);
-        uint8_t *use = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *use);
-        if (!hash || !use)
-            rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate %zu hashes", cat->n);
-        for (size_t i = 0; !rc && i < cat->n; i++) {
-            use[i] = cat->items[i].status == KILN_ST_OK && cat->items[i].has_pixels;
-            hash[i] = use[i] ? cat->items[i].phash : 0;
-        }
-        if (!rc)
-            rc = kiln_neardup_links(hash, use, cat->n, (unsigned)p->near_bits, &near, err);
-        free(hash);
-        free(use);
+    if (p->near && near) {
+        joins.pair = kiln_alloc_array(near->n ? near->n : 1, sizeof *joins.pair);
+        if (!joins.pair)
+            rc = kiln_err_set(err, KILN_ENOMEM, "cannot allocate %zu near-duplicate links",
+                              near->n);
+        for (size_t k = 0; !rc && k < near->n; k++)
+            if (near->link[k].verdict == KILN_NEARLINK_LINKED) {
+                joins.pair[joins.n][0] = near->link[k].c.a;
+                joins.pair[joins.n++][1] = near->link[k].c.b;
+            }
     }
     if (!rc)
-        rc = kiln_units_build(cat, p->near_bits >= 0 ? &near : NULL, units, err);
-    kiln_pairs_free(&near);
+        rc = kiln_units_build(cat, p->near && near ? &joins : NULL, units, err);
+    free(joins.pair);
     if (!rc)
         rc = kiln_split_assign(cat, units, p, rep, err);
     return rc;

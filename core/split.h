@@ -9,9 +9,10 @@
 
 #include "catalog.h"
 #include "err.h"
+#include "nearlink.h"
 #include "units.h"
 
-#define KILN_SPLIT_ALGORITHM "kiln-split-v1"
+#define KILN_SPLIT_ALGORITHM "kiln-split-v2"
 
 enum kiln_split_mode { KILN_MODE_EXACT = 0, KILN_MODE_STABLE = 1 };
 const char *kiln_split_mode_name(int mode);
@@ -23,7 +24,8 @@ struct kiln_split_params {
     unsigned nparts;              /* 2 (train:test) or 3 (train:val:test) as written */
     int mode;
     bool stratify;
-    int near_bits; /* --merge-near-duplicates radius, -1 when off */
+    bool near;     /* near duplicates join units (docs/near-duplicates.md); on by default */
+    struct kiln_nearlink_params near_params;
     /* --keep: per catalogue item its split in an earlier output, KILN_SPLIT_NONE when new; NULL
      * without --keep. keep_to_test resolves units that join two old splits (docs/split.md). */
     const int8_t *old_split;
@@ -41,7 +43,7 @@ int kiln_split_parse_ratios(const char *text, struct kiln_split_params *p, bool 
 void kiln_split_format_ratios(const struct kiln_split_params *p, char *buf, size_t len);
 
 /* The unit key: the first 8 bytes, big-endian, of HMAC-SHA256 with key = seed as 8 bytes
- * little-endian and message = "kiln-split-v1" || kind byte || id bytes. */
+ * little-endian and message = KILN_SPLIT_ALGORITHM || kind byte || id bytes. */
 int kiln_split_unit_key(uint64_t seed, int id_kind, const void *id, size_t idlen, uint64_t *key,
                         struct kiln_err *err);
 
@@ -61,9 +63,14 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
                       const struct kiln_split_params *p, struct kiln_split_report *rep,
                       struct kiln_err *err);
 
-/* The whole split stage over memory: near-duplicate pairs (when p->near_bits >= 0), units,
- * assignment. units is filled and owned by the caller (kiln_units_free). */
+/* Split defaults: 80:10:10, exact, near duplicates on with the detector's defaults. */
+void kiln_split_defaults(struct kiln_split_params *p);
+
+/* The split over memory: units (near contributes the links the unit rule accepted, when
+ * p->near; NULL when no link was checked), then the assignment. units is filled and owned by
+ * the caller (kiln_units_free). */
 int kiln_split_run(struct kiln_catalog *cat, const struct kiln_split_params *p,
-                   struct kiln_units *units, struct kiln_split_report *rep, struct kiln_err *err);
+                   const struct kiln_nearlinks *near, struct kiln_units *units,
+                   struct kiln_split_report *rep, struct kiln_err *err);
 
 #endif

@@ -21,6 +21,13 @@ static int cmp_digest(const void *a, const void *b)
     return c ? c : (x->index > y->index) - (x->index < y->index);
 }
 
+static int cmp_record(const void *a, const void *b)
+{
+    const struct keyed *x = a, *y = b;
+    int c = memcmp(x->key, y->key, KILN_RECORD_DIGEST_LEN);
+    return c ? c : (x->index > y->index) - (x->index < y->index);
+}
+
 static int cmp_string(const void *a, const void *b)
 {
     const struct keyed *x = a, *y = b;
@@ -34,7 +41,7 @@ static int cmp_u64(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-enum relation { REL_BYTES, REL_PIXELS, REL_GROUP };
+enum relation { REL_BYTES, REL_PIXELS, REL_GROUP, REL_RECORD };
 
 static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, struct keyed *buf,
                          enum relation rel)
@@ -50,13 +57,19 @@ static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, str
             buf[n++] = (struct keyed){it->pixel_sha256, (uint32_t)i};
         else if (rel == REL_GROUP && it->group[0])
             buf[n++] = (struct keyed){it->group, (uint32_t)i};
+        else if (rel == REL_RECORD && it->has_record)
+            buf[n++] = (struct keyed){it->record_digest, (uint32_t)i};
     }
-    int (*cmp)(const void *, const void *) = rel == REL_GROUP ? cmp_string : cmp_digest;
+    int (*cmp)(const void *, const void *) = rel == REL_GROUP    ? cmp_string
+                                             : rel == REL_RECORD ? cmp_record
+                                                                 : cmp_digest;
     qsort(buf, n, sizeof *buf, cmp);
     size_t joined = 0;
     for (size_t i = 1; i < n; i++) {
         bool same = rel == REL_GROUP ? strcmp(buf[i - 1].key, buf[i].key) == 0
-                                     : memcmp(buf[i - 1].key, buf[i].key, KILN_SHA256_LEN) == 0;
+                                     : memcmp(buf[i - 1].key, buf[i].key,
+                                              rel == REL_RECORD ? KILN_RECORD_DIGEST_LEN
+                                                                : KILN_SHA256_LEN) == 0;
         if (same && kiln_uf_union(uf, buf[i - 1].index, buf[i].index))
             joined++;
     }
@@ -68,6 +81,25 @@ void kiln_units_free(struct kiln_units *u)
     free(u->unit_of);
     free(u->units);
     memset(u, 0, sizeof *u);
+}
+
+int kiln_units_exact(const struct kiln_catalog *cat, uint32_t *exact, struct kiln_err *err)
+{
+    if (cat->n >= KILN_NO_UNIT)
+        return kiln_err_set(err, KILN_ETOOLARGE, "catalogue of %zu rows is too large", cat->n);
+    struct kiln_uf uf = {exact};
+    struct keyed *buf = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *buf);
+    if (!buf)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot allocate unit tables for %zu items", cat->n);
+    for (size_t i = 0; i < cat->n; i++)
+        exact[i] = (uint32_t)i;
+    static const enum relation rels[] = {REL_GROUP, REL_BYTES, REL_PIXELS, REL_RECORD};
+    for (size_t r = 0; r < sizeof rels / sizeof rels[0]; r++)
+        join_equal(cat, &uf, buf, rels[r]);
+    free(buf);
+    for (size_t i = 0; i < cat->n; i++)
+        exact[i] = kiln_uf_find(&uf, (uint32_t)i);
+    return KILN_OK;
 }
 
 /* Unit id precedence: a group key beats a content digest; among equals the byte-wise smallest. */
@@ -103,6 +135,7 @@ int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *ex
     out->merged_groups = join_equal(cat, &uf, buf, REL_GROUP);
     out->merged_bytes = join_equal(cat, &uf, buf, REL_BYTES);
     out->merged_pixels = join_equal(cat, &uf, buf, REL_PIXELS);
+    out->merged_records = join_equal(cat, &uf, buf, REL_RECORD);
     free(buf);
     if (extra)
         for (size_t i = 0; i < extra->n; i++) {

@@ -1,6 +1,7 @@
 /* Units: the sets of catalogue items that must land in the same split (same group, same file
- * bytes, same decoded pixels, and optionally near-identical pictures). They are the connected
- * components of those relations, found with union-find (docs/split.md, "Units"). */
+ * bytes, same decoded pixels, same record in kiln build, and near duplicates the unit rule
+ * accepted). They are the connected components of those relations, found with union-find
+ * (docs/split.md, "Units"). */
 #ifndef KILN_UNITS_H
 #define KILN_UNITS_H
 
@@ -30,7 +31,8 @@ struct kiln_units {
     uint32_t *unit_of; /* per catalogue item; KILN_NO_UNIT for items that are not usable */
     struct kiln_unit *units;
     size_t nitems, nunits;
-    size_t merged_bytes, merged_pixels, merged_groups, merged_near; /* unions that joined */
+    /* unions that joined two components, per relation */
+    size_t merged_bytes, merged_pixels, merged_groups, merged_records, merged_near;
 };
 
 /* Optional extra relation: pairs (a, b) of item indices to join, e.g. near duplicates. */
@@ -39,7 +41,12 @@ struct kiln_pairs {
     size_t n, cap;
 };
 
-/* Forms units over the ok items of cat. extra may be NULL. Sets each unit's size, id, stratum
+/* The exact units: exact[i] = the smallest index of item i's component under the relations
+ * other than near duplicates (group, file bytes, pixels, record), i itself for rows that are
+ * not ok. exact holds cat->n entries. */
+int kiln_units_exact(const struct kiln_catalog *cat, uint32_t *exact, struct kiln_err *err);
+
+/* Forms units over the ok items of cat. extra (the accepted near-duplicate links) may be NULL. Sets each unit's size, id, stratum
  * and mixed flag; keys and splits are left for kiln_split_assign. */
 int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *extra,
                      struct kiln_units *out, struct kiln_err *err);

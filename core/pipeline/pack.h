@@ -44,6 +44,7 @@ struct pack_run {
     struct kiln_err err;
     struct kiln_progress prog;
     uint8_t *delivered; /* per item, set when its bytes were queued */
+    uint8_t (*digest)[KILN_RECORD_DIGEST_LEN]; /* per item: its record's digest */
     struct kiln_manifest m; /* what pack_finish.c writes into the metadata and manifest.json */
 };
 
@@ -75,6 +76,11 @@ const char *kiln_pack_item_name(const struct kiln_item *it, char *buf, size_t le
 /* pack_work.c: every record written (decoded by --jobs workers, or copied from build's record
  * pool) and run->rep's statistics summed. */
 int kiln_pack_work(struct pack_run *run, struct kiln_err *err);
+/* No record written to one split may be identical to a record in another (docs/split.md): with
+ * the packed items sorted by record digest, each run of equal digests must lie in one split.
+ * Returns KILN_ELEAK naming the first such pair (its smallest item and the first item of the
+ * run in another split) unless o->allow_identical; counts the pairs either way. */
+int kiln_pack_check_identical(struct pack_run *run, struct kiln_err *err);
 
 /* pack_finish.c: the tensor files completed (f32 conversion, labels, metadata), then items.csv,
  * catalog.csv, the audit, manifest.json and SHA256SUMS, with every name in its output form. */

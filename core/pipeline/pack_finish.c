@@ -3,6 +3,7 @@
  * items.csv, catalog.csv, the audit into manifest.json, and SHA256SUMS, each renamed into place
  * only when complete. */
 #include <errno.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
@@ -16,6 +17,7 @@
 #include "pack.h"
 #include "pipeline.h"
 #include "record_pool.h"
+#include "stage_near.h"
 #include "stage_record.h"
 
 /* f32 = (v / maxval - mean_c) / std_c with the training statistics in [0,1] scale; std holds 1
@@ -212,18 +214,85 @@ static int put_in_place(const struct pack_run *run, struct kiln_err *err)
     return kiln_pipeline_replace_outputs(run->o->outdir, names, n, err);
 }
 
-/* The audit of what was packed, at the radius the split merged near duplicates at. */
+/* The audit of the records as packed: their digests, and the near-duplicate links (the
+ * split's in kiln build, else checked here with the split's settings). */
 static int audit(struct pack_run *run, struct kiln_audit *a, struct kiln_err *err)
 {
-    const struct kiln_split_record *sp = run->o->split;
-    int rc = kiln_audit_run(run->cat, sp && sp->near_bits >= 0 ? sp->near_bits : KILN_AUDIT_NEAR_BITS,
+    const struct kiln_pack_opts *o = run->o;
+    struct kiln_nearlinks own;
+    memset(&own, 0, sizeof own);
+    const struct kiln_nearlinks *near = o->near;
+    int rc = KILN_OK;
+    if (!near) {
+        rc = kiln_stage_near(run->cat, &o->near_params, o->jobs, &own, err);
+        near = &own;
+    }
+    if (!rc)
+        rc = kiln_audit_run(run->cat, near, (const uint8_t(*)[KILN_RECORD_DIGEST_LEN])run->digest,
                             run->rep->present, a, err);
+    kiln_nearlinks_free(&own);
     if (!rc) {
         run->rep->leaks = a->nleaks;
+        run->rep->near_leaks = a->per_kind[KILN_LEAK_NEAR];
         run->rep->missing_classes = a->missing_count;
         run->m.audit = a;
     }
     return rc;
+}
+
+static int cmp_digest_r(const void *x, const void *y, void *ctx)
+{
+    const uint8_t(*digest)[KILN_RECORD_DIGEST_LEN] = ctx;
+    const uint32_t i = *(const uint32_t *)x, j = *(const uint32_t *)y;
+    int c = memcmp(digest[i], digest[j], KILN_RECORD_DIGEST_LEN);
+    return c ? c : (i > j) - (i < j);
+}
+
+int kiln_pack_check_identical(struct pack_run *run, struct kiln_err *err)
+{
+    const struct kiln_catalog *cat = run->cat;
+    uint32_t *ord = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *ord);
+    if (!ord)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot sort %zu record digests", cat->n);
+    size_t n = 0;
+    for (size_t i = 0; i < cat->n; i++)
+        if (cat->items[i].split != KILN_SPLIT_NONE)
+            ord[n++] = (uint32_t)i;
+    if (n > 1)
+        qsort_r(ord, n, sizeof *ord, cmp_digest_r, run->digest);
+    size_t pairs = 0;
+    uint32_t first_a = UINT32_MAX, first_b = UINT32_MAX;
+    for (size_t i = 0, j; i < n; i = j) {
+        size_t per[KILN_NSPLITS] = {0, 0, 0};
+        uint32_t other = UINT32_MAX; /* first item of the run in another split than ord[i]'s */
+        for (j = i; j < n && memcmp(run->digest[ord[i]], run->digest[ord[j]],
+                                    KILN_RECORD_DIGEST_LEN) == 0;
+             j++) {
+            per[cat->items[ord[j]].split]++;
+            if (other == UINT32_MAX && cat->items[ord[j]].split != cat->items[ord[i]].split)
+                other = ord[j];
+        }
+        pairs += per[0] * per[1] + per[0] * per[2] + per[1] * per[2];
+        if (other != UINT32_MAX && ord[i] < first_a) {
+            first_a = ord[i];
+            first_b = other;
+        }
+    }
+    free(ord);
+    run->rep->identical_records = pairs;
+    if (!pairs || run->o->allow_identical)
+        return KILN_OK;
+    char na[2048], nb[2048];
+    const struct kiln_item *a = &cat->items[first_a], *b = &cat->items[first_b];
+    char more[64] = "";
+    if (pairs > 1)
+        snprintf(more, sizeof more, " (%zu such pairs in all)", pairs);
+    return kiln_err_set(err, KILN_ELEAK,
+                        "identical records in two splits: %s (%s) and %s (%s) give the same "
+                        "record with this recipe%s; put them in one group, or allow it (the "
+                        "audit then lists them)",
+                        kiln_pack_item_name(a, na, sizeof na), kiln_split_name(a->split),
+                        kiln_pack_item_name(b, nb, sizeof nb), kiln_split_name(b->split), more);
 }
 
 int kiln_pack_finish(struct pack_run *run, struct kiln_err *err)

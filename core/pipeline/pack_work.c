@@ -126,6 +126,11 @@ static int pack_one(struct pack_worker *w, const struct pack_job *j, struct kiln
     }
     if (denom > 1)
         w->dct_reduced++;
+    uint8_t d[KILN_SHA256_LEN];
+    rc = kiln_sha256_buf(w->record, run->int_record, d, e);
+    if (rc)
+        return rc;
+    memcpy(run->digest[j->item], d, KILN_RECORD_DIGEST_LEN);
     const int s = it->split;
     rc = add_record_stats(&w->stats[s], r, w->record, e);
     if (rc)
@@ -183,6 +188,12 @@ static int layout_from_pool(struct pack_run *run, struct kiln_err *err)
                 break;
             }
             rc = kiln_record_pool_get(run->o->pool, it->pool_slot, buf, err);
+            uint8_t d[KILN_SHA256_LEN];
+            if (!rc && !it->has_record)
+                rc = kiln_sha256_buf(buf, run->int_record, d, err);
+            if (!rc)
+                memcpy(run->digest[run->order[s][k]], it->has_record ? it->record_digest : d,
+                       KILN_RECORD_DIGEST_LEN);
             if (!rc)
                 rc = add_record_stats(&run->rep->stats[s], r, buf, err);
             if (!rc && r->dtype != KILN_OUT_F32)

@@ -59,20 +59,3 @@ int kiln_stage_catalog_save(const char *csv, const struct kiln_catalog *cat,
     free(path);
     return rc;
 }
-
-int kiln_stage_audit(const char *path, int near_bits, struct kiln_catalog *cat,
-                     struct kiln_audit *a, struct kiln_err *err)
-{
-    struct stat st;
-    char *csv = stat(path, &st) == 0 && S_ISDIR(st.st_mode)
-                    ? kiln_pipeline_path(path, KILN_FILE_CATALOG)
-                    : strdup(path);
-    if (!csv)
-        return kiln_err_set(err, KILN_ENOMEM, "out of memory");
-    bool has_split;
-    int rc = kiln_stage_catalog_load(csv, true, "to audit", cat, &has_split, err);
-    free(csv);
-    if (!rc)
-        rc = kiln_audit_run(cat, near_bits, NULL, a, err);
-    return rc;
-}

@@ -28,10 +28,4 @@ int kiln_stage_catalog_load_record(const char *csv, struct kiln_scan_record **sc
 int kiln_stage_catalog_save(const char *csv, const struct kiln_catalog *cat,
                             struct kiln_catalog_record *rec, struct kiln_err *err);
 
-/* kiln audit: loads the catalogue named by path (a catalogue, or an output folder's
- * catalog.csv), which must have a split, and audits it at near_bits (-1: no near duplicates).
- * cat and a are the caller's to free (also after an audit that failed: kiln_catalog_free). */
-int kiln_stage_audit(const char *path, int near_bits, struct kiln_catalog *cat,
-                     struct kiln_audit *a, struct kiln_err *err);
-
 #endif

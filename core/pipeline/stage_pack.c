@@ -14,6 +14,9 @@
 #include "../textesc.h"
 #include "pack.h"
 #include "pipeline.h"
+#include "../textesc.h"
+#include "pack.h"
+#include "pipeline.h"
 
 struct order_key {
     const struct kiln_item *it;
@@ -285,8 +288,10 @@ static int plan(struct pack_run *run, struct kiln_err *err)
 {
     const struct kiln_catalog *cat = run->cat;
     run->delivered = calloc(cat->n ? cat->n : 1, 1);
-    int rc = run->delivered ? plan_records(run, err)
-                            : kiln_err_set(err, KILN_ENOMEM, "cannot plan %zu records", cat->n);
+    run->digest = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *run->digest);
+    int rc = run->delivered && run->digest
+                 ? plan_records(run, err)
+                 : kiln_err_set(err, KILN_ENOMEM, "cannot plan %zu records", cat->n);
     if (!rc && run->o->recipe.dtype == KILN_OUT_F32 && run->rep->records[KILN_SPLIT_TRAIN] == 0)
         rc = kiln_err_set(err, KILN_EINVAL,
                           "the training split is empty, so --dtype f32 has no training "
@@ -333,6 +338,8 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
     if (!rc)
         rc = kiln_pack_work(&run, err);
     if (!rc)
+        rc = kiln_pack_check_identical(&run, err);
+    if (!rc)
         rc = kiln_pack_finish(&run, err);
     if (rc)
         abort_outputs(&run);
@@ -342,6 +349,7 @@ int kiln_stage_pack(struct kiln_catalog *cat, const struct kiln_pack_opts *o,
         free(run.order[s]);
     free(run.record_of);
     free(run.delivered);
+    free(run.digest);
     pthread_mutex_destroy(&run.mu);
     return rc;
 }

@@ -10,6 +10,7 @@
 #include "../../formats/files/manifest.h"
 #include "../catalog.h"
 #include "../err.h"
+#include "../nearlink.h"
 #include "../recipe.h"
 #include "../stats.h"
 #include "pipeline.h"
@@ -36,6 +37,13 @@ struct kiln_pack_opts {
     /* Read rows whose path leaves its source (absolute, or with a ".." step); scan never
      * writes such rows, so by default they are refused as a hand-edited catalogue's. */
     bool allow_outside_paths;
+    /* Two identical records in different splits stop the pack (KILN_ELEAK, both items named)
+     * unless this is set; then they are recorded as audit findings. */
+    bool allow_identical;
+    /* The catalogue's checked near-duplicate links for the audit (kiln build passes the
+     * split's); NULL: pack checks them itself from cat->fps with near_params. */
+    const struct kiln_nearlinks *near;
+    struct kiln_nearlink_params near_params;
 };
 
 struct kiln_pack_report {
@@ -47,6 +55,8 @@ struct kiln_pack_report {
     uint64_t bytes_read;
     size_t skipped;              /* catalogue rows not packed (not ok, or no split) */
     size_t leaks, missing_classes; /* audit findings recorded in the manifest */
+    size_t near_leaks;             /* of which possible near duplicates */
+    size_t identical_records;      /* pairs of identical records in two splits (allowed) */
 };
 
 /* Packs cat (loaded, classes indexed, split assigned) into o->outdir. The folder is created if

@@ -58,6 +58,7 @@ int kiln_record_scan(struct kiln_scan_record *r, const char *const *sources, siz
 
 int kiln_record_split(struct kiln_split_record *r, const struct kiln_split_params *p,
                       const struct kiln_units *u, const struct kiln_split_report *rep,
+                      const struct kiln_nearlinks *near, const struct kiln_catalog *cat,
                       struct kiln_err *err)
 {
     memset(r, 0, sizeof *r);
@@ -68,7 +69,8 @@ int kiln_record_split(struct kiln_split_record *r, const struct kiln_split_param
     r->parts = p->nparts;
     snprintf(r->mode, sizeof r->mode, "%s", kiln_split_mode_name(p->mode));
     r->stratify = p->stratify;
-    r->near_bits = p->near_bits;
+    if (p->near && !(r->near = kiln_manifest_near_json(p, near, cat)))
+        rc = kiln_err_set(err, KILN_ENOMEM, "cannot record the near-duplicate check");
     r->keep = p->keep_manifest != NULL;
     if (r->keep) {
         r->keep_manifest = recorded(p->keep_manifest, &rc, err);
@@ -82,6 +84,7 @@ int kiln_record_split(struct kiln_split_record *r, const struct kiln_split_param
     r->merged_by_group = u->merged_groups;
     r->merged_by_bytes = u->merged_bytes;
     r->merged_by_pixels = u->merged_pixels;
+    r->merged_by_records = u->merged_records;
     r->merged_by_near = u->merged_near;
     r->mixed_units = rep->mixed_units;
     r->oversized_units = rep->oversized_units;
@@ -105,8 +108,38 @@ int kiln_record_split_params(const struct kiln_split_record *r, struct kiln_spli
     if (p->mode < 0)
         return kiln_err_set(err, KILN_EINVAL, "bad recorded mode '%s'", r->mode);
     p->stratify = r->stratify;
-    p->near_bits = r->near_bits;
+    if (r->near) {
+        const char *nalg = json_string_value(json_object_get(r->near, "algorithm"));
+        if (!nalg || strcmp(nalg, KILN_NEAR_ALGORITHM) != 0)
+            return kiln_err_set(err, KILN_EUNSUPPORTED, "near-duplicate algorithm %s is not %s",
+                                nalg ? nalg : "(none)", KILN_NEAR_ALGORITHM);
+    }
+    kiln_near_params_from_record(r, &p->near, &p->near_params);
     return KILN_OK;
+}
+
+void kiln_near_params_from_record(const struct kiln_split_record *r, bool *on,
+                                  struct kiln_nearlink_params *p)
+{
+    kiln_nearlink_defaults(p);
+    *on = !r || r->near;
+    if (!r || !r->near)
+        return;
+    struct {
+        const char *key;
+        unsigned *v, lo, hi;
+    } f[] = {{"radius_full", &p->radius_full, 0, 16},
+             {"radius_centre", &p->radius_centre, 0, 16},
+             {"radius_turned", &p->radius_turned, 0, 16},
+             {"radius_coarse", &p->radius_coarse, 0, 16},
+             {"coarse_confirm", &p->coarse_confirm, 0, 63},
+             {"max_pictures", &p->max_pictures, 2, UINT32_MAX}};
+    for (size_t k = 0; k < sizeof f / sizeof f[0]; k++) {
+        const json_t *v = json_object_get(r->near, f[k].key);
+        if (json_is_integer(v) && json_integer_value(v) >= (json_int_t)f[k].lo &&
+            (uint64_t)json_integer_value(v) <= f[k].hi)
+            *f[k].v = (unsigned)json_integer_value(v);
+    }
 }
 
 /* *out = the output form of s (malloc'ed); s NULL stays NULL. */
@@ -141,6 +174,32 @@ static int public_scan(const struct kiln_scan_record *in, const struct kiln_name
     return rc;
 }
 
+/* The near-duplicate record with the item names of its refused links in output form. */
+static int public_near(const json_t *near, const struct kiln_names *n, json_t **out,
+                       struct kiln_err *err)
+{
+    *out = json_deep_copy(near);
+    if (!*out)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot copy the records");
+    size_t i, k;
+    json_t *link, *item;
+    json_array_foreach(json_object_get(*out, "refused"), i, link)
+    {
+        json_array_foreach(json_object_get(link, "items"), k, item)
+        {
+            const char *name = json_string_value(json_object_get(item, "name"));
+            char *shown = NULL;
+            int rc = public_name(n, name, &shown, err);
+            if (rc)
+                return rc;
+            if (shown)
+                json_object_set_new(item, "name", json_string(shown));
+            free(shown);
+        }
+    }
+    return KILN_OK;
+}
+
 int kiln_record_public(const struct kiln_scan_record *scan, const struct kiln_split_record *split,
                        const struct kiln_names *n, struct kiln_scan_record *scan_out,
                        struct kiln_split_record *split_out, struct kiln_err *err)
@@ -150,7 +209,10 @@ int kiln_record_public(const struct kiln_scan_record *scan, const struct kiln_sp
     int rc = scan ? public_scan(scan, n, scan_out, err) : KILN_OK;
     if (!rc && split) {
         *split_out = *split;
+        split_out->near = NULL;
         rc = public_name(n, split->keep_manifest, &split_out->keep_manifest, err);
+        if (!rc && split->near)
+            rc = public_near(split->near, n, &split_out->near, err);
     }
     if (rc) {
         kiln_scan_record_free(scan_out);

@@ -13,13 +13,19 @@
 int kiln_record_scan(struct kiln_scan_record *r, const char *const *sources, size_t nsources,
                      const struct kiln_scan_opts *o, const struct kiln_scan_report *rep,
                      const struct kiln_catalog *cat, struct kiln_err *err);
-/* Fills r (freed with kiln_split_record_free) from a finished split. */
+/* Fills r (freed with kiln_split_record_free) from a finished split. near: the split's checked
+ * links (NULL when near duplicates were off); cat names the items of refused links. */
 int kiln_record_split(struct kiln_split_record *r, const struct kiln_split_params *p,
                       const struct kiln_units *u, const struct kiln_split_report *rep,
+                      const struct kiln_nearlinks *near, const struct kiln_catalog *cat,
                       struct kiln_err *err);
 /* The split parameters a record gives (reproduce reruns them). */
 int kiln_record_split_params(const struct kiln_split_record *r, struct kiln_split_params *p,
                              struct kiln_err *err);
+/* The near-duplicate settings of a split record: *on and p; defaults and *on = true when there
+ * is no record (a catalogue split by hand or not at all). */
+void kiln_near_params_from_record(const struct kiln_split_record *r, bool *on,
+                                  struct kiln_nearlink_params *p);
 
 /* The records as an output may show them: copies (into *scan_out and *split_out, freed with
  * kiln_*_record_free) whose names -- the sources, the labels CSV, the group rule and the --keep

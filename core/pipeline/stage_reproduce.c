@@ -18,6 +18,7 @@
 #include "../names.h"
 #include "../split.h"
 #include "stage_index.h"
+#include "stage_near.h"
 #include "stage_pack.h"
 #include "stage_record.h"
 
@@ -114,11 +115,13 @@ static void compare_libraries(const json_t *m, kiln_reproduce_fn fn, void *ctx,
 /* Reruns the recorded split on the relocated catalogue and counts items that land elsewhere.
  * Units are formed from content, so with every item found the split must not change. */
 static int rerun_split(struct kiln_catalog *cat, const struct kiln_split_record *split,
-                       kiln_reproduce_fn fn, void *ctx, struct kiln_reproduce_report *rep,
-                       struct kiln_err *err)
+                       unsigned jobs, struct kiln_nearlinks *near, kiln_reproduce_fn fn, void *ctx,
+                       struct kiln_reproduce_report *rep, struct kiln_err *err)
 {
     struct kiln_split_params p;
     int rc = kiln_record_split_params(split, &p, err);
+    if (!rc && p.near)
+        rc = kiln_stage_near(cat, &p.near_params, jobs, near, err);
     if (rc)
         return rc;
     int8_t *was = kiln_alloc_array(cat->n ? cat->n : 1, 1);
@@ -134,7 +137,7 @@ static int rerun_split(struct kiln_catalog *cat, const struct kiln_split_record 
     }
     struct kiln_units units;
     struct kiln_split_report srep;
-    rc = kiln_split_run(cat, &p, &units, &srep, err);
+    rc = kiln_split_run(cat, &p, p.near ? near : NULL, &units, &srep, err);
     kiln_units_free(&units);
     for (size_t i = 0; !rc && i < cat->n; i++) {
         const struct kiln_item *it = &cat->items[i];
@@ -170,6 +173,9 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     struct kiln_scan_record *scan = NULL;
     struct kiln_split_record *split = NULL;
     uint32_t *moved = NULL; /* items found elsewhere than recorded */
+    struct kiln_nearlinks near;
+    memset(&near, 0, sizeof near);
+    bool near_on = true;
     struct kiln_pack_opts po;
     memset(&po, 0, sizeof po);
     const char *want = recorded_sha(m, KILN_FILE_CATALOG);
@@ -189,6 +195,8 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     if (!rc && (rc = kiln_manifest_read_records(m, &scan, &split, err)) != 0)
         kiln_err_prefix(err, "%s", o->manifest);
     bool has_split;
+    if (!rc)
+        rc = kiln_near_attach_store(&cat, o->outdir, err);
     if (!rc)
         rc = kiln_catalog_csv_load(cpath, &cat, &has_split, err);
     if (!rc)
@@ -260,11 +268,19 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     /* Rerun the recorded split, unless it depended on an earlier output (--keep) or items are
      * missing (which would reshuffle exact-mode dealing): then the recorded splits stand. */
     /* Hashed group keys (--hash-paths) no longer give the unit ids either. */
+    bool near_rerun = false;
     if (split && !split->keep && !rep->missing && !po.recipe.hash_paths) {
-        rc = rerun_split(&cat, split, fn, ctx, rep, err);
+        rc = rerun_split(&cat, split, o->jobs, &near, fn, ctx, rep, err);
         if (rc)
             goto out;
+        near_rerun = true;
     }
+    /* The audit checks near duplicates with the split's settings (the rerun's links when there
+     * was one). Identical records in two splits were allowed if the recorded output has them:
+     * its manifest's audit lists them, and the comparison below shows any difference. */
+    kiln_near_params_from_record(split, &near_on, &po.near_params);
+    po.near = near_rerun && near_on ? &near : NULL;
+    po.allow_identical = true;
     po.outdir = o->outdir;
     po.jobs = o->jobs;
     po.scan = scan;
@@ -294,6 +310,7 @@ out:
     kiln_split_record_free(split);
     free(scan);
     free(split);
+    kiln_nearlinks_free(&near);
     kiln_catalog_free(&cat); /* before the index: items point into its strings */
     kiln_index_free(&idx);
     free(cpath);

@@ -10,13 +10,14 @@
 #include <string.h>
 
 #include "../../formats/files/csv.h"
+#include "../../formats/files/fpstore.h"
 #include "../checked.h"
 #include "../prepare.h"
 #include "record_pool.h"
 #include "../convert.h"
 #include "../imghash.h"
 #include "queue.h"
-#include "../resize.h"
+#include "../nearfp.h"
 #include "../sha256.h"
 
 static const char *const label_rule_names[] = {"folder", "none", "csv"};
@@ -249,8 +250,7 @@ struct worker {
     struct kiln_prep prep; /* build: the record is prepared from the same decode */
     uint8_t *record;
     char notes[96];
-    struct kiln_image img, oriented, scratch[2];
-    struct kiln_resizer rs;
+    struct kiln_image img, oriented;
 };
 
 /* A failure of the run itself (memory, the record pool), named after the file at hand. */
@@ -342,11 +342,19 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
         shown = &w->oriented;
     }
     rc = kiln_imghash_pixels(shown, it->pixel_sha256, &e);
-    if (!rc)
-        rc = kiln_imghash_dhash(shown, w->scratch, &w->rs, &it->phash, &e);
     if (rc)
         return run_failure(w, j, rc, e.msg);
     it->has_pixels = 1;
+    /* The near-duplicate fingerprint from the same decode. A picture beyond its 2^40-pixel
+     * bound (never decoded under any usable limit) simply takes no part. */
+    struct kiln_nearfp fp;
+    rc = kiln_nearfp_compute(shown, &fp, &e);
+    if (rc == KILN_ETOOLARGE)
+        rc = KILN_OK;
+    else if (!rc && w->run->cat->fps)
+        rc = kiln_fpstore_put(w->run->cat->fps, &fp, &it->fp_slot, &e);
+    if (rc)
+        return run_failure(w, j, rc, e.msg);
     if (recipe) {
         /* The oriented image gives the same record as the stored one and is already at hand;
          * src still describes the stored picture, which fixes the fit and the reduced grid. */
@@ -361,6 +369,13 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
         rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
         if (rc)
             return kiln_err_set(&w->err, rc, "%s", e.msg);
+        /* Identical records join one unit before the split (docs/split.md). */
+        uint8_t d[KILN_SHA256_LEN];
+        rc = kiln_sha256_buf(w->record, o->pool->record_bytes, d, &e);
+        if (rc)
+            return kiln_err_set(&w->err, rc, "%s", e.msg);
+        memcpy(it->record_digest, d, KILN_RECORD_DIGEST_LEN);
+        it->has_record = 1;
     }
     return KILN_OK;
 }
@@ -398,6 +413,7 @@ static int process(struct worker *w, struct job *j)
     it.class_index = -1;
     it.split = KILN_SPLIT_NONE;
     it.pool_slot = KILN_NO_SLOT;
+    it.fp_slot = KILN_FP_NONE;
     it.size = j->size;
     it.status = (uint8_t)j->status;
     char reason[256];
@@ -593,7 +609,6 @@ int kiln_stage_scan(const char *const *sources, size_t nsources, const struct ki
     }
     for (; started < jobs; started++) {
         workers[started].run = &run;
-        kiln_resizer_init(&workers[started].rs);
         kiln_prep_init(&workers[started].prep);
         if (o->pool && !(workers[started].record = malloc(o->pool->record_bytes)))
             break;
@@ -615,9 +630,6 @@ out:
         for (unsigned i = 0; i < jobs; i++) {
             kiln_image_free(&workers[i].img);
             kiln_image_free(&workers[i].oriented);
-            kiln_image_free(&workers[i].scratch[0]);
-            kiln_image_free(&workers[i].scratch[1]);
-            kiln_resizer_free(&workers[i].rs);
             kiln_prep_free(&workers[i].prep);
             free(workers[i].record);
         }

@@ -1,5 +1,5 @@
 /* The scan stage: walk sources, hash and probe every file, decode it once for the pixel digest
- * and difference hash, apply the label and group rules, and fill a sorted catalogue. Runs a
+ * and near-duplicate fingerprint, apply the label and group rules, and fill a sorted catalogue. Runs a
  * reader thread and --jobs decode workers joined by a byte-bounded queue. */
 #ifndef KILN_STAGE_SCAN_H
 #define KILN_STAGE_SCAN_H
@@ -47,7 +47,8 @@ struct kiln_scan_report {
     char first_unused_csv_row[256];
 };
 
-/* Scans sources into cat (which must be empty), sorted by location, classes indexed. Errors of
+/* Scans sources into cat (which must be empty), sorted by location, classes indexed; each
+ * decoded picture's near-duplicate fingerprint goes into cat->fps when it is set. Errors of
  * individual files become rows; only errors of the run itself (a source that cannot be
  * opened, a bad option, memory) are returned. */
 int kiln_stage_scan(const char *const *sources, size_t nsources, const struct kiln_scan_opts *o,

@@ -5,15 +5,12 @@
 
 #include "../../formats/files/keep.h"
 #include "../checked.h"
+#include "stage_near.h"
 #include "stage_split.h"
 
 void kiln_stage_split_defaults(struct kiln_split_params *p)
 {
-    struct kiln_err e;
-    bool note;
-    memset(p, 0, sizeof *p);
-    p->near_bits = -1;
-    kiln_split_parse_ratios("80:10:10", p, &note, &e);
+    kiln_split_defaults(p);
 }
 
 /* The old split of every catalogue item from p->keep_manifest; *old is malloc'ed. */
@@ -35,26 +32,21 @@ static int load_keep(const struct kiln_catalog *cat, struct kiln_split_params *p
     return rc;
 }
 
-int kiln_stage_split(struct kiln_catalog *cat, struct kiln_split_params *p,
-                     struct kiln_units *units, struct kiln_split_report *rep, int8_t **old_split,
-                     struct kiln_err *err)
+int kiln_stage_split(struct kiln_catalog *cat, struct kiln_split_params *p, unsigned jobs,
+                     struct kiln_nearlinks *near, struct kiln_units *units,
+                     struct kiln_split_report *rep, int8_t **old_split, struct kiln_err *err)
 {
     *old_split = NULL;
     int rc = p->keep_manifest ? load_keep(cat, p, old_split, err) : KILN_OK;
     p->old_split = *old_split;
+    if (!rc && p->near)
+        rc = kiln_stage_near(cat, &p->near_params, jobs, near, err);
     if (!rc)
-        rc = kiln_split_run(cat, p, units, rep, err);
+        rc = kiln_split_run(cat, p, p->near ? near : NULL, units, rep, err);
     p->old_split = NULL; /* the caller owns the array; the record needs only the manifest */
     if (rc) {
         free(*old_split);
         *old_split = NULL;
     }
     return rc;
-}
-
-int kiln_stage_split_audit(const struct kiln_catalog *cat, const struct kiln_split_params *p,
-                           struct kiln_audit *a, struct kiln_err *err)
-{
-    return kiln_audit_run(cat, p->near_bits >= 0 ? p->near_bits : KILN_AUDIT_NEAR_BITS, NULL, a,
-                          err);
 }

@@ -23,6 +23,8 @@ struct tiff_mem {
     uint64_t len, pos;
     char error[256];
     int errors;
+    char lost[256]; /* the first warning that says pixels are missing */
+    int losses;
 };
 
 static tmsize_t mem_read(thandle_t h, void *buf, tmsize_t n)
@@ -97,13 +99,30 @@ static int on_error(TIFF *tif, void *user, const char *module, const char *fmt, 
 }
 
 static int on_warning(TIFF *tif, void *user, const char *module, const char *fmt, va_list ap)
+    __attribute__((format(printf, 4, 0)));
+
+/* Most warnings (unknown tags, ...) do not change pixels. A few say that a strip or tile held
+ * fewer samples than the directory declares, and libtiff then returns success with part of the
+ * buffer never written: a JPEG strip of 16x16 in a 24592x16 image gave rows whose tail was
+ * whatever the heap held (found by fuzzing; two decodes of one file differed). Those make the
+ * decode fail. The phrases are libtiff 4.5's and libjpeg's (through libtiff's JPEG codec). */
+static int on_warning(TIFF *tif, void *user, const char *module, const char *fmt, va_list ap)
 {
     (void)tif;
-    (void)user;
-    (void)module;
-    (void)fmt;
-    (void)ap;
-    return 1; /* warnings (unknown tags, ...) do not change pixels */
+    static const char *const loss[] = {"Improper JPEG strip/tile size", "Premature EOF",
+                                       "Premature EOL", "Premature end of JPEG",
+                                       "Corrupt JPEG data", "Not enough data", "data truncated"};
+    struct tiff_mem *m = user;
+    char text[200];
+    vsnprintf(text, sizeof text, fmt, ap);
+    for (size_t i = 0; i < sizeof loss / sizeof loss[0]; i++)
+        if (strstr(text, loss[i])) {
+            if (m->losses++ == 0)
+                snprintf(m->lost, sizeof m->lost, "%s%s%s", module ? module : "",
+                         module ? ": " : "", text);
+            break;
+        }
+    return 1;
 }
 
 static int error_code(const struct tiff_mem *m);
@@ -348,6 +367,15 @@ static int check_tile_size(TIFF *tif, const struct tiff_shape *s, size_t image_b
     return KILN_OK;
 }
 
+/* A decode that libtiff called a success but warned had samples missing (on_warning). */
+static int check_losses(const struct tiff_mem *m, struct kiln_err *err)
+{
+    if (!m->losses)
+        return KILN_OK;
+    return kiln_err_set(err, strstr(m->lost, "Premature E") ? KILN_ETRUNCATED : KILN_ECORRUPT,
+                        "TIFF image data is incomplete: %s", m->lost);
+}
+
 static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s,
                        struct kiln_image *out, struct kiln_err *err)
 {
@@ -369,7 +397,7 @@ static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s
         rc = check_tile_size(tif, s, out->stride * out->height, err);
         if (rc)
             return rc;
-        buf = malloc((size_t)ts);
+        buf = calloc(1, (size_t)ts); /* zeroed: see on_warning */
         if (!buf)
             return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a TIFF tile");
         for (int p = 0; p < planes && !rc; p++)
@@ -385,7 +413,7 @@ static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s
         tmsize_t ls = TIFFScanlineSize(tif);
         if (ls <= 0 || (size_t)ls < (size_t)s->w * per_block * (s->bps / 8))
             return kiln_err_set(err, KILN_ECORRUPT, "TIFF scanline size is inconsistent");
-        buf = malloc((size_t)ls);
+        buf = calloc(1, (size_t)ls);
         if (!buf)
             return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a TIFF row");
         for (int p = 0; p < planes && !rc; p++)
@@ -400,6 +428,8 @@ static int read_direct(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s
     free(buf);
     if (!rc && m->errors)
         rc = kiln_err_set(err, error_code(m), "TIFF %s", m->error);
+    if (!rc)
+        rc = check_losses(m, err);
     if (!rc && s->invert) {
         /* Min-is-white stores ink: 0 is white. Only the grey channel is inverted. */
         const size_t npx = (size_t)out->width * out->height, C = out->channels;
@@ -422,7 +452,7 @@ static int read_rgba(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s,
     int rc = check_tile_size(tif, s, (size_t)s->w * s->h * sizeof(uint32_t), err);
     if (rc)
         return rc;
-    uint32_t *raster = kiln_alloc_array((size_t)s->w * s->h, sizeof *raster);
+    uint32_t *raster = calloc((size_t)s->w * s->h, sizeof *raster); /* calloc checks n*size */
     if (!raster)
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate a %ux%u TIFF raster", s->w, s->h);
     /* Asking for the file's own orientation makes libtiff keep the stored row order; kiln
@@ -431,6 +461,8 @@ static int read_rgba(TIFF *tif, struct tiff_mem *m, const struct tiff_shape *s,
     if (!ok || m->errors)
         rc = kiln_err_set(err, m->errors ? error_code(m) : KILN_ECORRUPT, "TIFF %s",
                           m->errors ? m->error : "image data unreadable");
+    if (!rc)
+        rc = check_losses(m, err);
     const size_t npx = (size_t)s->w * s->h;
     uint8_t *d = out->data;
     for (size_t i = 0; !rc && i < npx; i++) {

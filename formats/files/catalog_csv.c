@@ -9,19 +9,84 @@
 #include "../../core/textesc.h"
 #include "csv.h"
 #include "../decoders/decoder.h"
+#include "fpstore.h"
 #include "outfile.h"
 
 enum col {
     C_SOURCE, C_PATH, C_MEMBER, C_SIZE, C_SHA256, C_FORMAT, C_WIDTH, C_HEIGHT, C_CHANNELS,
     C_DEPTH, C_STORED_DEPTH, C_ORIENTATION, C_PAGES, C_NOTES, C_LABEL, C_CLASS, C_GROUP, C_STATUS,
-    C_REASON, C_PIXEL_SHA256, C_PHASH, C_PIXEL_SCALE, C_UNIT, C_SPLIT, C_COUNT
+    C_REASON, C_PIXEL_SHA256, C_PIXEL_SCALE, C_RECORD_DIGEST, C_UNIT, C_SPLIT, C_NEAR, C_COUNT
 };
 
 static const char *const col_names[C_COUNT] = {
     "source", "path", "member", "size", "sha256", "format", "width", "height", "channels",
     "depth", "stored_depth", "orientation", "pages", "notes", "label", "class", "group", "status",
-    "reason", "pixel_sha256", "phash", "pixel_scale", "unit", "split",
+    "reason", "pixel_sha256", "pixel_scale", "record_digest", "unit", "split",
+    "near_fingerprint",
 };
+
+/* The difference-hash column of catalogues written before the near-duplicate fingerprint. */
+#define LEGACY_HASH_COLUMN "phash"
+
+/* RFC 4648 section 4 base64 of the fingerprint bytes: 312 bytes are 104 groups of 3, so 416
+ * characters and never padding. */
+#define FP_TEXT (KILN_NEARFP_BYTES / 3 * 4)
+static const char b64[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+
+static void fp_to_text(const uint8_t *in, char out[FP_TEXT + 1])
+{
+    for (size_t i = 0, o = 0; i < KILN_NEARFP_BYTES; i += 3) {
+        uint32_t v = (uint32_t)in[i] << 16 | (uint32_t)in[i + 1] << 8 | in[i + 2];
+        for (int k = 3; k >= 0; k--)
+            out[o++] = b64[v >> (6 * k) & 63];
+    }
+    out[FP_TEXT] = '\0';
+}
+
+/* -1 unless text is exactly FP_TEXT base64 characters. */
+static int fp_from_text(const char *text, uint8_t out[KILN_NEARFP_BYTES])
+{
+    if (strlen(text) != FP_TEXT)
+        return -1;
+    for (size_t i = 0, o = 0; i < FP_TEXT; i += 4) {
+        uint32_t v = 0;
+        for (int k = 0; k < 4; k++) {
+            const char *hit = text[i + k] ? strchr(b64, text[i + k]) : NULL;
+            if (!hit)
+                return -1;
+            v = v << 6 | (uint32_t)(hit - b64);
+        }
+        out[o++] = (uint8_t)(v >> 16);
+        out[o++] = (uint8_t)(v >> 8);
+        out[o++] = (uint8_t)v;
+    }
+    return 0;
+}
+
+static void hex_bytes(const uint8_t *b, size_t n, char *out)
+{
+    static const char digits[] = "0123456789abcdef";
+    for (size_t i = 0; i < n; i++) {
+        out[2 * i] = digits[b[i] >> 4];
+        out[2 * i + 1] = digits[b[i] & 15];
+    }
+    out[2 * n] = '\0';
+}
+
+/* -1 unless text is exactly 2n lower-case hex digits. */
+static int hex_parse(const char *text, uint8_t *out, size_t n)
+{
+    if (strlen(text) != 2 * n)
+        return -1;
+    for (size_t i = 0; i < 2 * n; i++) {
+        const char c = text[i];
+        int d = c >= '0' && c <= '9' ? c - '0' : c >= 'a' && c <= 'f' ? c - 'a' + 10 : -1;
+        if (d < 0)
+            return -1;
+        out[i / 2] = (uint8_t)(i % 2 ? out[i / 2] | d : d << 4);
+    }
+    return 0;
+}
 
 static void text_field(FILE *f, const char *s, int first)
 {
@@ -36,6 +101,13 @@ static void text_field(FILE *f, const char *s, int first)
 
 int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_err *err)
 {
+    /* A catalogue read without its fingerprints would lose them here. */
+    for (size_t i = 0; i < cat->n; i++)
+        if (cat->items[i].fp_slot != KILN_FP_NONE &&
+            (cat->items[i].fp_slot == KILN_FP_SKIPPED || !cat->fps))
+            return kiln_err_set(err, KILN_EINTERNAL,
+                                "the catalogue was read without its near-duplicate fingerprints "
+                                "and cannot be written back");
     for (int c = 0; c < C_COUNT; c++)
         kiln_csv_field(f, col_names[c], c == 0);
     kiln_csv_end_row(f);
@@ -66,14 +138,30 @@ int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_
         fprintf(f, ",%s,", kiln_status_name(it->status));
         text_field(f, it->reason, 1);
         if (it->has_pixels)
-            fprintf(f, ",%s,%016" PRIx64 ",%u", psha, it->phash,
-                    it->pixel_scale ? it->pixel_scale : 1u);
+            fprintf(f, ",%s,%u", psha, it->pixel_scale ? it->pixel_scale : 1u);
         else
-            fputs(",,,", f);
+            fputs(",,", f);
+        char rec[2 * KILN_RECORD_DIGEST_LEN + 1] = "";
+        if (it->has_record)
+            hex_bytes(it->record_digest, KILN_RECORD_DIGEST_LEN, rec);
+        fprintf(f, ",%s", rec);
         if (it->split >= 0)
             fprintf(f, ",%016" PRIx64 ",%s", it->unit_key, kiln_split_name(it->split));
         else
             fputs(",,", f);
+        if (it->fp_slot != KILN_FP_NONE) {
+            struct kiln_nearfp fp;
+            uint8_t raw[KILN_NEARFP_BYTES];
+            char text[FP_TEXT + 1];
+            int rc = kiln_fpstore_get(cat->fps, it->fp_slot, &fp, err);
+            if (rc)
+                return rc;
+            kiln_nearfp_encode(&fp, raw);
+            fp_to_text(raw, text);
+            fprintf(f, ",%s", text);
+        } else {
+            fputs(",", f);
+        }
         kiln_csv_end_row(f);
     }
     if (ferror(f))
@@ -141,10 +229,21 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
             return kiln_err_set(err, KILN_EINVAL, "%s is empty, not a catalogue", path);
         return -got;
     }
-    for (size_t i = 0; i < r.nfields; i++)
+    bool legacy = false;
+    for (size_t i = 0; i < r.nfields; i++) {
         for (int c = 0; c < C_COUNT; c++)
             if (strcmp(r.fields[i], col_names[c]) == 0)
                 idx[c] = (int)i;
+        legacy |= strcmp(r.fields[i], LEGACY_HASH_COLUMN) == 0;
+    }
+    if (legacy && idx[C_NEAR] < 0) {
+        kiln_csv_close(&r);
+        return kiln_err_set(err, KILN_EUNSUPPORTED,
+                            "%s was written by an earlier kiln: it has difference hashes "
+                            "('" LEGACY_HASH_COLUMN "') instead of near-duplicate fingerprints "
+                            "('near_fingerprint'); scan the sources again",
+                            path);
+    }
     static const int required[] = {C_SOURCE, C_PATH, C_MEMBER, C_SIZE, C_SHA256, C_STATUS};
     for (size_t k = 0; k < sizeof required / sizeof required[0]; k++)
         if (idx[required[k]] < 0) {
@@ -165,6 +264,7 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
         it.class_index = -1;
         it.split = KILN_SPLIT_NONE;
         it.pool_slot = UINT32_MAX;
+        it.fp_slot = KILN_FP_NONE;
         const char *bad = NULL;
         static const int texts[] = {C_SOURCE, C_PATH, C_MEMBER, C_FORMAT, C_LABEL, C_GROUP,
                                     C_REASON, C_NOTES};
@@ -214,9 +314,8 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
                 it.class_index = (int32_t)u;
         }
         if (!bad && v[C_PIXEL_SHA256][0]) {
-            if (kiln_sha256_parse(v[C_PIXEL_SHA256], it.pixel_sha256) ||
-                parse_u64(v[C_PHASH], &it.phash, 16) || strlen(v[C_PHASH]) != 16)
-                bad = "pixel_sha256/phash";
+            if (kiln_sha256_parse(v[C_PIXEL_SHA256], it.pixel_sha256))
+                bad = "pixel_sha256";
             else
                 it.has_pixels = 1;
             it.pixel_scale = 1;
@@ -226,6 +325,20 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
                 else
                     it.pixel_scale = (uint8_t)u;
             }
+        }
+        if (!bad && v[C_RECORD_DIGEST][0]) {
+            if (hex_parse(v[C_RECORD_DIGEST], it.record_digest, KILN_RECORD_DIGEST_LEN))
+                bad = "record_digest";
+            else
+                it.has_record = 1;
+        }
+        struct kiln_nearfp fp;
+        if (!bad && v[C_NEAR][0]) {
+            uint8_t raw[KILN_NEARFP_BYTES];
+            if (fp_from_text(v[C_NEAR], raw) || kiln_nearfp_decode(raw, &fp))
+                bad = "near_fingerprint";
+            else
+                it.fp_slot = KILN_FP_SKIPPED;
         }
         if (!bad && v[C_SPLIT][0]) {
             int sp = kiln_split_parse(v[C_SPLIT]);
@@ -239,6 +352,13 @@ int kiln_catalog_csv_load(const char *path, struct kiln_catalog *cat, bool *has_
         }
         if (!bad && st != KILN_ST_OK && it.split != KILN_SPLIT_NONE)
             bad = "split (a row that is not ok cannot be in a split)";
+        if (!bad && it.fp_slot != KILN_FP_NONE && cat->fps &&
+            (rc = kiln_fpstore_put(cat->fps, &fp, &it.fp_slot, err)) != KILN_OK) {
+            for (int c = 0; c < C_COUNT; c++)
+                free(text[c]);
+            kiln_csv_close(&r);
+            return rc;
+        }
         if (bad) {
             for (int c = 0; c < C_COUNT; c++)
                 free(text[c]);

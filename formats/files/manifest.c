@@ -330,6 +330,7 @@ void kiln_split_record_free(struct kiln_split_record *r)
     if (!r)
         return;
     free(r->keep_manifest);
+    json_decref(r->near);
     memset(r, 0, sizeof *r);
 }
 
@@ -368,6 +369,85 @@ static json_t *scan_json(const struct kiln_scan_record *r)
     return j;
 }
 
+static json_t *q20(int32_t v)
+{
+    return json_real((double)v / 1048576.0); /* exact: a binary fraction */
+}
+
+/* {"name": relative name, "split": split} of an item, as records list them. */
+static json_t *item_entry(const struct kiln_item *it)
+{
+    char rel[4096];
+    kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+    json_t *o = json_object();
+    json_object_set_new(o, "name", text(rel));
+    json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));
+    return o;
+}
+
+json_t *kiln_manifest_nearlink_json(const struct kiln_nearlink *l, const struct kiln_catalog *cat)
+{
+    json_t *j = json_object(), *items = json_array(), *searches = json_array();
+    json_array_append_new(items, item_entry(&cat->items[l->c.a]));
+    json_array_append_new(items, item_entry(&cat->items[l->c.b]));
+    json_object_set_new(j, "items", items);
+    json_object_set_new(j, "orientation", json_integer(l->c.orientation));
+    json_object_set_new(j, "distance", json_integer(l->c.distance));
+    json_object_set_new(j, "centre_distance", json_integer(l->c.centre_distance));
+    json_object_set_new(j, "similarity", q20(kiln_nearmatch_global(&l->m)));
+    json_object_set_new(j, "detail", q20(kiln_nearmatch_local(&l->m)));
+    json_object_set_new(j, "hue", q20(l->m.hue));
+    json_object_set_new(j, "trimmed", json_boolean(l->m.trimmed));
+    json_object_set_new(j, "alignment", json_integer(l->m.warp));
+    static const char *const names[] = {"full", "centre", "turned", "coarse", "coarse-centre"};
+    for (int b = 0; b < 5; b++)
+        if (l->c.sources >> b & 1)
+            json_array_append_new(searches, json_string(names[b]));
+    json_object_set_new(j, "searches", searches);
+    json_object_set_new(j, "unit_rule", json_string(kiln_nearlink_verdict_name(l->verdict)));
+    return j;
+}
+
+/* Links the unit rule refused, listed with their evidence; the rest are counted. */
+#define NEAR_LISTED 100
+
+json_t *kiln_manifest_near_json(const struct kiln_split_params *p, const struct kiln_nearlinks *l,
+                                const struct kiln_catalog *cat)
+{
+    if (!p->near)
+        return json_null();
+    const struct kiln_nearlink_params *q = &p->near_params;
+    json_t *j = json_object();
+    json_object_set_new(j, "algorithm", json_string(KILN_NEAR_ALGORITHM));
+    json_object_set_new(j, "radius_full", json_integer(q->radius_full));
+    json_object_set_new(j, "radius_centre", json_integer(q->radius_centre));
+    json_object_set_new(j, "radius_turned", json_integer(q->radius_turned));
+    json_object_set_new(j, "radius_coarse", json_integer(q->radius_coarse));
+    json_object_set_new(j, "coarse_confirm", json_integer(q->coarse_confirm));
+    json_object_set_new(j, "max_pictures", json_integer(q->max_pictures));
+    if (!l)
+        return j;
+    json_object_set_new(j, "pictures", count(l->pictures));
+    json_object_set_new(j, "low_information", count(l->lowinfo));
+    json_object_set_new(j, "candidates", count(l->candidates));
+    json_object_set_new(j, "links", count(l->n));
+    json_object_set_new(j, "linked", count(l->per_verdict[KILN_NEARLINK_LINKED]));
+    json_object_set_new(j, "refused_different_labels",
+                        count(l->per_verdict[KILN_NEARLINK_REFUSED_LABEL]));
+    json_object_set_new(j, "refused_too_many_pictures",
+                        count(l->per_verdict[KILN_NEARLINK_REFUSED_SIZE]));
+    json_t *refused = json_array();
+    size_t listed = 0, total = 0;
+    for (size_t k = 0; k < l->n; k++)
+        if (l->link[k].verdict != KILN_NEARLINK_LINKED && total++ < NEAR_LISTED) {
+            json_array_append_new(refused, kiln_manifest_nearlink_json(&l->link[k], cat));
+            listed++;
+        }
+    json_object_set_new(j, "refused", refused);
+    json_object_set_new(j, "refused_not_listed", count(total - listed));
+    return j;
+}
+
 static json_t *split_json(const struct kiln_split_record *r)
 {
     json_t *j = json_object();
@@ -379,8 +459,7 @@ static json_t *split_json(const struct kiln_split_record *r)
     json_object_set_new(j, "parts", json_integer(r->parts));
     json_object_set_new(j, "mode", json_string(r->mode));
     json_object_set_new(j, "stratify", json_boolean(r->stratify));
-    json_object_set_new(j, "merge_near_duplicates",
-                        r->near_bits >= 0 ? json_integer(r->near_bits) : json_null());
+    json_object_set_new(j, "near_duplicates", r->near ? json_deep_copy(r->near) : json_null());
     if (r->keep) {
         json_t *k = json_object();
         json_object_set_new(k, "manifest", json_string(r->keep_manifest ? r->keep_manifest : ""));
@@ -397,6 +476,7 @@ static json_t *split_json(const struct kiln_split_record *r)
     json_object_set_new(j, "merged_by_group", count(r->merged_by_group));
     json_object_set_new(j, "merged_by_bytes", count(r->merged_by_bytes));
     json_object_set_new(j, "merged_by_pixels", count(r->merged_by_pixels));
+    json_object_set_new(j, "merged_by_records", count(r->merged_by_records));
     json_object_set_new(j, "merged_by_near_duplicates", count(r->merged_by_near));
     json_object_set_new(j, "mixed_label_units", count(r->mixed_units));
     json_object_set_new(j, "oversized_units", count(r->oversized_units));
@@ -414,8 +494,7 @@ static json_t *split_json(const struct kiln_split_record *r)
 static json_t *audit_json(const struct kiln_audit *a, const struct kiln_catalog *cat)
 {
     json_t *j = json_object(), *counts = json_object(), *missing = json_array();
-    json_object_set_new(j, "near_duplicate_bits",
-                        a->near_bits >= 0 ? json_integer(a->near_bits) : json_null());
+    json_object_set_new(j, "near_duplicates_checked", json_boolean(a->near_checked));
     json_object_set_new(j, "clean", json_boolean(a->nleaks == 0));
     for (int k = 0; k < KILN_LEAK_KINDS; k++)
         json_object_set_new(counts, kiln_leak_kind_name(k), count(a->per_kind[k]));
@@ -433,16 +512,11 @@ static json_t *audit_json(const struct kiln_audit *a, const struct kiln_catalog 
     for (size_t l = 0; l < a->nleaks && l < AUDIT_LISTED; l++) {
         json_t *f = json_object(), *items = json_array();
         json_object_set_new(f, "kind", json_string(kiln_leak_kind_name(a->leaks[l].kind)));
-        for (size_t k = 0; k < a->leaks[l].count; k++) {
-            const struct kiln_item *it = &cat->items[a->items[a->leaks[l].first + k]];
-            char rel[4096];
-            kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
-            json_t *o = json_object();
-            json_object_set_new(o, "name", text(rel));
-            json_object_set_new(o, "split", json_string(kiln_split_name(it->split)));
-            json_array_append_new(items, o);
-        }
+        for (size_t k = 0; k < a->leaks[l].count; k++)
+            json_array_append_new(items, item_entry(&cat->items[a->items[a->leaks[l].first + k]]));
         json_object_set_new(f, "items", items);
+        if (a->leaks[l].kind == KILN_LEAK_NEAR)
+            json_object_set_new(f, "link", kiln_manifest_nearlink_json(&a->leaks[l].near, cat));
         json_array_append_new(list, f);
     }
     json_object_set_new(j, "findings", list);
@@ -615,13 +689,18 @@ static void read_split(struct reader *r, struct kiln_split_record *s)
     s->parts = (unsigned)read_count(r, "parts");
     read_text(r, "mode", s->mode, sizeof s->mode);
     s->stratify = read_bool(r, "stratify");
-    const json_t *near = json_object_get(r->obj, "merge_near_duplicates");
-    s->near_bits = json_is_integer(near) ? (int)json_integer_value(near) : -1;
+    const json_t *near = json_object_get(r->obj, "near_duplicates");
+    if (json_is_object(near))
+        s->near = json_deep_copy(near);
+    else if (!json_is_null(near) && !r->rc)
+        r->rc = kiln_err_set(r->err, KILN_EINVAL, "the %s has no object or null 'near_duplicates'",
+                             r->what);
     read_keep(r, s);
     s->units = read_count(r, "units");
     s->merged_by_group = read_count(r, "merged_by_group");
     s->merged_by_bytes = read_count(r, "merged_by_bytes");
     s->merged_by_pixels = read_count(r, "merged_by_pixels");
+    s->merged_by_records = read_count(r, "merged_by_records");
     s->merged_by_near = read_count(r, "merged_by_near_duplicates");
     s->mixed_units = read_count(r, "mixed_label_units");
     s->oversized_units = read_count(r, "oversized_units");

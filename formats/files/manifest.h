@@ -15,6 +15,7 @@
 #include "../../core/err.h"
 #include "../../core/recipe.h"
 #include "../../core/sha256.h"
+#include "../../core/split.h"
 #include "../../core/stats.h"
 
 #define KILN_MANIFEST_VERSION 1
@@ -70,13 +71,17 @@ struct kiln_split_record {
     unsigned parts;      /* 2 or 3 */
     char mode[16];
     bool stratify;
-    int near_bits;       /* --merge-near-duplicates radius; -1: off (null) */
+    /* "near_duplicates": the check's settings and what it found (kiln_manifest_near_json);
+     * NULL when the check was off. Kept as the recorded JSON object, owned, so that pack copies
+     * the split's findings into the manifest as written. */
+    json_t *near;
     bool keep;           /* --keep given: */
     char *keep_manifest;
     char keep_sha256[KILN_SHA256_HEX];
     bool keep_to_test;   /* --keep-conflicts test (else error) */
     size_t kept_units, kept_items, moved_items;
-    size_t units, merged_by_group, merged_by_bytes, merged_by_pixels, merged_by_near;
+    size_t units, merged_by_group, merged_by_bytes, merged_by_pixels, merged_by_records,
+        merged_by_near;
     size_t mixed_units, oversized_units;
     size_t items[KILN_NSPLITS]; /* val is written only for three parts */
 };
@@ -91,6 +96,15 @@ struct kiln_catalog_record {
     const struct kiln_audit *audit; /* with audit_cat, whose names it lists; NULL: none */
     const struct kiln_catalog *audit_cat;
 };
+
+/* The split record's "near_duplicates" object: the settings in p (when p->near), and with l
+ * the counts and the links the unit rule refused, each with its evidence. */
+json_t *kiln_manifest_near_json(const struct kiln_split_params *p, const struct kiln_nearlinks *l,
+                                const struct kiln_catalog *cat);
+/* The evidence of one checked link, for records and reports: the two items (names, splits),
+ * orientation, hash distances, the correlations that decided, hue, alignment, searches and the
+ * unit rule's verdict. */
+json_t *kiln_manifest_nearlink_json(const struct kiln_nearlink *l, const struct kiln_catalog *cat);
 
 void kiln_scan_record_free(struct kiln_scan_record *r);
 void kiln_split_record_free(struct kiln_split_record *r);

@@ -32,6 +32,7 @@
 #include <sys/resource.h>
 #include <time.h>
 
+#include "synth.h"
 #include "../../core/checked.h"
 #include "../../core/convert.h"
 #include "../../core/disjoint.h"
@@ -290,7 +291,7 @@ static void *load_worker(void *arg)
 /* The searches handed out to the threads one by one, then merged: the same candidates as one
  * thread would find (kiln_nearlink_merge sorts them). */
 struct search_run {
-    const struct kiln_nearfp *fp;
+    const struct kiln_nearkey *fp;
     size_t n;
     const struct kiln_nearlink_params *p;
     struct kiln_nearcands parts[KILN_NEARLINK_SEARCHES];
@@ -323,7 +324,10 @@ static void parallel_candidates(const struct kiln_nearfp *fp, size_t n,
 {
     struct search_run sr;
     memset(&sr, 0, sizeof sr);
-    sr.fp = fp;
+    struct kiln_nearkey *key = xalloc(n, sizeof *key);
+    for (size_t i = 0; i < n; i++)
+        key[i] = kiln_nearkey_of(&fp[i]);
+    sr.fp = key;
     sr.n = n;
     sr.p = p;
     pthread_t tid[64];
@@ -333,8 +337,9 @@ static void parallel_candidates(const struct kiln_nearfp *fp, size_t n,
     for (int j = 0; j < jobs; j++)
         pthread_join(tid[j], NULL);
     struct kiln_err err;
-    if (atomic_load(&sr.failed) || kiln_nearlink_merge(fp, sr.parts, KILN_NEARLINK_SEARCHES, out, &err))
+    if (atomic_load(&sr.failed) || kiln_nearlink_merge(key, sr.parts, KILN_NEARLINK_SEARCHES, out, &err))
         die("candidate search failed", NULL);
+    free(key);
     if (report) {
         printf("CPU time per search (s): full %.2f, centre %.2f, coarse %.2f, coarse centre %.2f, "
                "turned", sr.cpu[0], sr.cpu[1], sr.cpu[2], sr.cpu[3]);
@@ -774,44 +779,7 @@ static void run_set(struct run *r, int no_labels, const char *dump, int demo)
     kiln_nearcands_free(&c);
 }
 
-/* ---- the scale run ---------------------------------------------------------------------------- */
-
-static uint64_t splitmix64(uint64_t *s)
-{
-    uint64_t z = (*s += UINT64_C(0x9e3779b97f4a7c15));
-    z = (z ^ (z >> 30)) * UINT64_C(0xbf58476d1ce4e5b9);
-    z = (z ^ (z >> 27)) * UINT64_C(0x94d049bb133111eb);
-    return z ^ (z >> 31);
-}
-
-#define SYN 48
-
-/* A smooth random field (bilinear 7x7 lattice), two gratings and noise, from seed alone. */
-static void synth(uint64_t seed, uint8_t *px)
-{
-    uint64_t s = seed;
-    int lat[7][7];
-    for (int y = 0; y < 7; y++)
-        for (int x = 0; x < 7; x++)
-            lat[y][x] = (int)(splitmix64(&s) % 200);
-    int fx1 = (int)(splitmix64(&s) % 9) + 1, fy1 = (int)(splitmix64(&s) % 9), a1 = (int)(splitmix64(&s) % 40);
-    int fx2 = (int)(splitmix64(&s) % 5), fy2 = (int)(splitmix64(&s) % 9) + 1, a2 = (int)(splitmix64(&s) % 40);
-    for (int y = 0; y < SYN; y++)
-        for (int x = 0; x < SYN; x++) {
-            int gx = x * 6 * 256 / (SYN - 1), gy = y * 6 * 256 / (SYN - 1);
-            int ix = gx >> 8, iy = gy >> 8, fxr = gx & 255, fyr = gy & 255;
-            if (ix > 5) { ix = 5; fxr = 256; }
-            if (iy > 5) { iy = 5; fyr = 256; }
-            int top = lat[iy][ix] * (256 - fxr) + lat[iy][ix + 1] * fxr;
-            int bot = lat[iy + 1][ix] * (256 - fxr) + lat[iy + 1][ix + 1] * fxr;
-            int v = (top * (256 - fyr) + bot * fyr) >> 16;
-            /* triangle-wave gratings: integer, no libm */
-            int p1 = ((x * fx1 + y * fy1) * 16) & 511, p2 = ((x * fx2 + y * fy2) * 16) & 511;
-            v += a1 * (p1 < 256 ? p1 : 511 - p1) / 256 + a2 * (p2 < 256 ? p2 : 511 - p2) / 256;
-            v += (int)(splitmix64(&s) % 7) - 3;
-            px[y * SYN + x] = (uint8_t)(v < 0 ? 0 : v > 255 ? 255 : v);
-        }
-}
+/* ---- the scale run (pictures from synth.h) ---------------------------------------------------------------------------- */
 
 static void run_scale(size_t n, int jobs)
 {
@@ -823,20 +791,7 @@ static void run_scale(size_t n, int jobs)
     double t0 = now();
     size_t planted = 0;
     for (size_t i = 0; i < n; i++) {
-        uint64_t seed = splitmix64(&s);
-        if (i >= 100 && i % 100 == 0) {
-            /* a copy of an earlier picture, brighter and with a little noise */
-            uint64_t src = splitmix64(&s) % i, ss = src * 7919 + 17;
-            synth(ss, cp);
-            for (int k = 0; k < SYN * SYN; k++) {
-                int v = cp[k] * 11 / 10 + (int)(splitmix64(&s) % 5) - 2;
-                px[k] = (uint8_t)(v < 0 ? 0 : v > 255 ? 255 : v);
-            }
-            planted++;
-        } else {
-            synth(i * 7919 + 17, px);
-        }
-        (void)seed;
+        planted += synth_scale_picture(i, &s, px, cp);
         if (kiln_nearfp_compute(&img, &fp[i], &err))
             die("fingerprint failed", err.msg);
     }

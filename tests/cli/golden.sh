@@ -24,17 +24,17 @@ run build tiles -o A --seed 1 "${group[@]}" --size 32x24 --jobs 2
 run build tiles -o B --seed 2 "${group[@]}" --size 40x30 --fit pad --pad-value 10,20,30 \
     --filter lanczos3 --depth 16 --layout nchw --stratify --mode stable
 # C: centre crop to grey f32 (normalised with the training statistics), two-way split, no DCT
-# reduction.
+# reduction, no near-duplicate check.
 run build tiles -o C --seed 3 --size 28 --fit crop --channels 1 --dtype f32 --filter bicubic \
-    --ratios 70:30 --no-dct-scale
-# D: hashed names with a secret key, near duplicates merged, RGBA over a background, box
-# filter, EXIF orientation ignored.
+    --ratios 70:30 --no-dct-scale --near-duplicates off
+# D: hashed names with a secret key, near-duplicate unit limit lowered, RGBA over a background,
+# box filter, EXIF orientation ignored.
 run build tiles -o D --seed 4 "${group[@]}" --size 24x16 --hash-paths --path-key key \
-    --merge-near-duplicates=4 --channels 4 --background 0,128,255 --filter box --no-orient
+    --near-unit-limit 3 --channels 4 --background 0,128,255 --filter box --no-orient
 # E: the staged route scan -> split -> pack, each with its own record beside the catalogue.
 mkdir E
 run scan tiles -o E/scan.csv "${group[@]}" --jobs 2
-run split E/scan.csv -o E/split.csv --seed 5 --ratios 60:20:20 --merge-near-duplicates
+run split E/scan.csv -o E/split.csv --seed 5 --ratios 60:20:20 --near-radius 4
 run pack E/split.csv -o E/out --size 20x20 --filter nearest --dtype u16 --jobs 2
 # F: a split that keeps the assignment of A (--keep), packed.
 mkdir F

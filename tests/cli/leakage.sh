@@ -1,7 +1,9 @@
 # Splits that cannot leak, proved by audit on the output: shots of one tile (group), an exact
-# duplicate across class folders and planted near duplicates (re-encoded copies) never span two
-# splits; a hand-made leak is found and named (exit 6); --keep holds old splits, refuses a unit
-# that would join two old splits, and resolves it toward test when asked.
+# duplicate across class folders and a planted near duplicate (a re-encoded copy) never span
+# two splits; copies filed under another class are refused by the unit rule, named, and
+# reported by the audit as possible near duplicates; a hand-made leak is found and named (exit
+# 6); --keep holds old splits, refuses a unit that would join two old splits, and resolves it
+# toward test when asked.
 . "$(dirname "$0")/lib.sh"
 need_python
 demo_data_copy "$work/data"
@@ -17,28 +19,51 @@ for src, dst in (("crazing/T0121_b.jpg", "sound/T0901_a.jpg"),
 PY
 G='/(T[0-9]+)_'
 expect_exit 0 "$KILN" scan "$work/data" -o "$work/c.csv" --group-regex "$G" -q
-# Radius 2: the re-encoded copies are within it; unrelated tiles are not (checked below).
-expect_exit 0 "$KILN" split "$work/c.csv" --seed 11 --ratios 70:15:15 --merge-near-duplicates=2
-expect_exit 0 "$KILN" audit "$work/c.csv" --near 2
-grep -q "nothing spans two splits" "$work/stdout" || fail "audit: $(cat "$work/stdout")"
-"$PYTHON" - "$work/c.csv" <<'PY' || fail "kept-together check"
-import csv, sys, collections
+# Near duplicates are checked by default. The copy filed under the same class joins its
+# original's unit; the two copies filed under another class are checked links the unit rule
+# refuses (docs/near-duplicates.md, section 4): split names them, and the audit reports them
+# as possible near duplicates, with their evidence, exactly when they land in two splits.
+expect_exit 0 "$KILN" split "$work/c.csv" --seed 11 --ratios 70:15:15
+grep -q "near-duplicate links passed the pixel check but would join different labels" \
+    "$work/stderr" || fail "refused links not named: $(cat "$work/stderr")"
+grep -Eq "crazing/T0121_b.jpg \(crazing\) ~ .*sound/T0901_a.jpg \(sound\)|sound/T0901_a.jpg \(sound\) ~ .*crazing/T0121_b.jpg \(crazing\)" \
+    "$work/stderr" || fail "refused link not shown: $(cat "$work/stderr")"
+audit_rc=0
+"$KILN" audit "$work/c.csv" >"$work/audit.out" 2>&1 || audit_rc=$?
+"$PYTHON" - "$work/c.csv" "$work/c.json" "$work/audit.out" "$audit_rc" <<'PY' || fail "kept-together check"
+import csv, json, sys, collections
 rows = [r for r in csv.DictReader(open(sys.argv[1], newline="")) if r["status"] == "ok"]
 by = {r["path"]: r for r in rows}
-pairs = [("crazing/T0121_b.jpg", "sound/T0901_a.jpg"), ("sound/T0107_a.jpg", "crawling/T0902_a.jpg"),
-         ("pinholing/T0102_b.jpg", "pinholing/T0903_a.jpg"),
-         ("pinholing/T0103_a.jpg", "sound/T0191_a.jpg")]          # the demo's exact duplicate
-for a, b in pairs:
-    ha, hb = int(by[a]["phash"], 16), int(by[b]["phash"], 16)
-    assert by[a]["split"] == by[b]["split"], (a, b)
+near = json.load(open(sys.argv[2]))["split"]["near_duplicates"]
+audit, rc = open(sys.argv[3]).read(), int(sys.argv[4])
+# Same label: one unit. The demo's byte-identical copy across classes: one unit (exact rule).
+for a, b in [("pinholing/T0102_b.jpg", "pinholing/T0903_a.jpg"),
+             ("pinholing/T0103_a.jpg", "sound/T0191_a.jpg")]:
     assert by[a]["unit"] == by[b]["unit"], (a, b)
-    if a != "pinholing/T0103_a.jpg":
-        assert bin(ha ^ hb).count("1") <= 2, (a, b, bin(ha ^ hb).count("1"))
+# Different labels: refused, units apart, listed with the reason.
+refused = {tuple(sorted(i["name"] for i in l["items"])): l for l in near["refused"]}
+spanning = []
+for a, b in [("crazing/T0121_b.jpg", "sound/T0901_a.jpg"),
+             ("sound/T0107_a.jpg", "crawling/T0902_a.jpg")]:
+    assert by[a]["unit"] != by[b]["unit"], (a, b)
+    l = refused[tuple(sorted((a, b)))]
+    assert l["unit_rule"] == "refused: different labels" and l["similarity"] >= 0.93, l
+    if by[a]["split"] != by[b]["split"]:
+        spanning.append((a, b))
+assert near["refused_different_labels"] == 2 and near["refused_too_many_pictures"] == 0, near
+# The audit: exit 6 with one finding per spanning link, worded as possible, with evidence;
+# never LEAK (nothing else spans splits).
+assert rc == (6 if spanning else 0), (rc, spanning, audit)
+assert "LEAK" not in audit, audit
+assert audit.count("possible near duplicate (distance ") == len(spanning), audit
+assert audit.count("evidence: hash distance") == len(spanning), audit
+for a, b in spanning:
+    assert a in audit and b in audit, (a, b, audit)
 groups = collections.defaultdict(set)
 for r in rows:
     groups[r["group"]].add(r["split"])
 assert all(len(s) == 1 for s in groups.values()), "a tile spans splits"
-print("ok:", len(groups), "tiles, each in one split")
+print("ok:", len(groups), "tiles, each in one split;", len(spanning), "refused links span splits")
 PY
 # A leak made by hand: move one shot of a multi-shot tile to another split.
 "$PYTHON" - "$work/c.csv" "$work/leak.csv" <<'PY'
@@ -68,7 +93,7 @@ for i in range(12):
 PY
 expect_exit 0 "$KILN" scan "$work/data" -o "$work/c2.csv" --group-regex "$G" -q
 expect_exit 0 "$KILN" split "$work/c2.csv" --seed 999 --mode exact --ratios 50:25:25 \
-    --merge-near-duplicates=2 --keep "$work/v1/manifest.json"
+    --keep "$work/v1/manifest.json"
 grep -q "kept from" "$work/stdout" || fail "split did not report kept items"
 "$PYTHON" - "$work/v1/items.csv" "$work/c2.csv" <<'PY' || fail "old items moved"
 import csv, sys

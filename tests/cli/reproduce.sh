@@ -6,7 +6,7 @@
 need_python
 demo_data "$work/data"
 expect_exit 0 "$KILN" build "$work/data" -o "$work/v1" --seed 77 --group-regex '/(T[0-9]+)_' \
-    --ratios 70:15:15 --stratify --size 40x32 --fit crop --filter bicubic --merge-near-duplicates=2
+    --ratios 70:15:15 --stratify --size 40x32 --fit crop --filter bicubic --near-unit-limit 4
 # Reorganise a copy: every file renamed and moved into new folders, new unrelated files added.
 "$PYTHON" - "$work/data" "$work/lab" <<'PY'
 import os, shutil, sys

@@ -36,14 +36,29 @@ pair "$work/src" 128x96 --fit pad --filter lanczos3
 pair "$work/src" 41x29 --fit crop --filter bicubic
 "$PYTHON" "$ref" coverage "$log" || fail "coverage"
 
-# build decodes once at pack's scale; scan -> split -> pack decodes again: same bytes.
+# build decodes once at pack's scale; scan -> split -> pack decodes again: the same record for
+# every item. (Not the same files: build also keeps identical records in one unit, and the
+# 997x13 strips turned by their Exif tags give identical 37x23 records, so its units and with
+# them the record order differ from the staged route's; docs/split.md.)
 common=(--size 37x23 --fit pad --pad-value 3,141,59)
 expect_exit 0 "$KILN" scan "$work/src" -o "$work/cat.csv" --jobs 2
 expect_exit 0 "$KILN" split "$work/cat.csv" --seed 3 --ratios 100:0:0
 expect_exit 0 "$KILN" pack "$work/cat.csv" -o "$work/staged" "${common[@]}" --jobs 2
-for f in train.kten items.csv; do
-    cmp "$work/staged/$f" "$built/$f" || fail "staged route and build differ in $f"
-done
+"$PYTHON" - "$KILN_SRC/examples" "$work/staged" "$built" <<'PY' || fail "staged route and build differ"
+import csv, sys
+sys.path.insert(0, sys.argv[1])
+from read_kten import read_kten
+records = []
+for out in sys.argv[2:]:
+    images = read_kten(out + "/train.kten", check=True)["images"]
+    rows = [r for r in csv.DictReader(open(out + "/items.csv", newline="")) if r["split"]]
+    records.append({(r["source"], r["path"], r["member"]): images[int(r["index"])].tobytes()
+                    for r in rows})
+assert records[0].keys() == records[1].keys(), "different items"
+bad = [k for k in records[0] if records[0][k] != records[1][k]]
+assert not bad, f"{len(bad)} records differ, e.g. {bad[0]}"
+print("ok: staged route and build give the same record for each of", len(records[0]), "items")
+PY
 
 # The demo set (multiples of 8), the documented measurement: every reduced record >= 35 dB.
 demo_data "$work/demo"

@@ -384,8 +384,25 @@ def csv_seeds():
 
 CATALOG_COLS = ["source", "path", "member", "size", "sha256", "format", "width", "height",
                 "channels", "depth", "stored_depth", "orientation", "pages", "notes", "label",
-                "class", "group", "status", "reason", "pixel_sha256", "phash", "pixel_scale",
-                "unit", "split"]
+                "class", "group", "status", "reason", "pixel_sha256", "pixel_scale",
+                "record_digest", "unit", "split", "near_fingerprint"]
+
+
+def fingerprint(seed, grey=False):
+    """A near-duplicate fingerprint as catalog.csv holds it (docs/formats.md): base64 of version
+    1, flags, info, hash, centre, chroma scale, 16 chroma pairs and a 16x16 thumbnail."""
+    import base64
+    h = (0x9E3779B97F4A7C15 * (seed + 1)) % 2 ** 64 & ~1
+    c = (0xC2B2AE3D27D4EB4F * (seed + 3)) % 2 ** 64 & ~1
+    head = bytes([1, 0]) + (500 + seed).to_bytes(2, "big") + h.to_bytes(8, "big") + \
+        c.to_bytes(8, "big")
+    if grey:
+        chroma = bytes(4) + bytes(32)
+    else:
+        chroma = (40000 + seed).to_bytes(4, "big") + bytes(((i * 37 + seed) % 255 - 127) & 255
+                                                           for i in range(32))
+    thumb = bytes((i * 7 + seed * 31) % 256 for i in range(256))
+    return base64.b64encode(head + chroma + thumb).decode()
 
 
 def catalog_row(**kw):
@@ -404,9 +421,10 @@ def catalog_seeds():
               stored_depth=8, orientation=1, pages=1, status="ok")
     rows = [CATALOG_COLS,
             catalog_row(path="cats/a.png", size=120, sha256=sha[0], label="cats",
-                        pixel_sha256=sha[1], phash="0123456789abcdef", pixel_scale=1, **ok),
+                        pixel_sha256=sha[1], near_fingerprint=fingerprint(1), pixel_scale=1, **ok),
             catalog_row(path="dogs/b%25.png", size=99, sha256=sha[2], label="dogs", notes="palette",
-                        pixel_sha256=sha[3], phash="fedcba9876543210", pixel_scale=2, **ok),
+                        pixel_sha256=sha[3], near_fingerprint=fingerprint(2, grey=True),
+                        record_digest="0123456789abcdef0123456789abcdef", pixel_scale=2, **ok),
             catalog_row(source="data", path="x.zip", member="dogs/c.jpg", size=5, sha256=sha[4],
                         format="jpeg", status="truncated", reason="JPEG stream ends early"),
             catalog_row(source="data", path="empty.png", size=0, status="empty",
@@ -418,8 +436,8 @@ def catalog_seeds():
     split[1][CATALOG_COLS.index("split")] = "train"
     split[2][CATALOG_COLS.index("unit")] = "a000000000000001"
     split[2][CATALOG_COLS.index("split")] = "test"
-    order = [5, 0, 17, 4, 3, 1, 2] + [i for i in range(len(CATALOG_COLS))
-                                      if i not in (5, 0, 17, 4, 3, 1, 2)]
+    order = [5, 0, 17, 4, 3, 1, 2, 24] + [i for i in range(len(CATALOG_COLS))
+                                          if i not in (5, 0, 17, 4, 3, 1, 2, 24)]
     reordered = [[r[i] for i in order] + ["extra"] for r in rows]
     return {"ok-scanned.csv": csv_text(rows), "ok-split.csv": csv_text(split),
             "ok-reordered-extra-column.csv": csv_text(reordered)}

@@ -6,7 +6,8 @@
 #   FUZZ_SECONDS=600 nice -n 19 bash tests/fuzz/run.sh png jpeg    # a long run of two
 #
 # Environment: FUZZ_SECONDS per harness; FUZZ_BUILD (default build-fuzz/ in the source tree);
-# FUZZ_ARGS extra libFuzzer options (e.g. "-jobs=2 -workers=2"); KILN_TESTDATA (published test
+# FUZZ_SEED libFuzzer's random seed (default 1, so a CI pass explores the same inputs each time
+# and a finding can be replayed; 0 lets libFuzzer pick one, for long local runs); FUZZ_ARGS extra libFuzzer options (e.g. "-jobs=2 -workers=2"); KILN_TESTDATA (published test
 # images, used as extra corpora when present). The corpus grows in FUZZ_BUILD/corpus/NAME
 # across runs; crashes land in FUZZ_BUILD/crashes/ and make the script fail.
 set -euo pipefail
@@ -72,7 +73,7 @@ for h in $harnesses; do
     # -timeout: one input may take 10 s under the sanitizers before it counts as a hang;
     # -rss_limit_mb: the harness limits keep honest inputs far below it (tests/fuzz/fuzz.h).
     # shellcheck disable=SC2046,SC2086
-    "$build/tests/fuzz/fuzz_$h" -max_total_time="$secs" -timeout=10 -rss_limit_mb=2048 \
+    "$build/tests/fuzz/fuzz_$h" -seed="${FUZZ_SEED:-1}" -max_total_time="$secs" -timeout=10 -rss_limit_mb=2048 \
         -max_len="$(max_len "$h")" -dict="$fuzz/dict/$(dict "$h").dict" \
         -artifact_prefix="$build/crashes/$h-" -print_final_stats=1 ${FUZZ_ARGS:-} \
         "$corpus" "$build/seeds/$h" "$fuzz/regress/$h" $(published "$h") >"$log" 2>&1
@@ -93,6 +94,13 @@ for h in $harnesses; do
     if [ $rc -ne 0 ]; then
         grep -E -A30 '==ERROR|invariant broken|runtime error|deadly signal|Test unit written' \
             "$log" | tail -60 >&2 || true
+        # The input itself, so a finding on a machine that is gone (CI) can be kept in
+        # tests/fuzz/regress/NAME/: `base64 -d > tests/fuzz/regress/NAME/what-it-shows`.
+        for f in "$build/crashes/$h-"*; do
+            [ -f "$f" ] || continue
+            echo "input $(basename "$f") ($(wc -c <"$f") bytes), base64:" >&2
+            base64 -w 76 "$f" >&2
+        done
     fi
 done
 echo "total executions: $total_runs"

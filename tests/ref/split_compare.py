@@ -1,13 +1,22 @@
 #!/usr/bin/env python3
-"""Compares `$KILN split` with the reference split_ref.py (written from docs/split.md) on
-randomised synthetic catalogues, and checks that shuffling rows and renaming every file leaves
-each item's assignment unchanged and that split sizes follow docs/split.md.
+"""Compares `$KILN split` with the reference split_ref.py (written from docs/split.md and
+docs/near-duplicates.md) on randomised synthetic catalogues and on a catalogue kiln scanned,
+and checks that shuffling rows and renaming every file leaves each item's assignment unchanged
+and that split sizes follow docs/split.md.
 
     KILN=build/kiln python3 tests/ref/split_compare.py [--work DIR] [--catalogs N] [--items N]
 
-Exit status 0 when everything agrees, 1 on any mismatch (the first differing rows are shown).
-Options the tool does not offer yet (`--merge-near-duplicates`, `--keep`) are reported as
-"not yet available: <option>" and their cases are skipped.
+The near-duplicate fingerprints are real: a pool of pictures made from scikit-image's bundled
+photographs (Debian python3-skimage; astronaut.png NASA public domain, coffee.png Rachel
+Michetti CC0, chelsea.png Stefan van der Walt CC0, camera.png Lav Varshney CC0, rocket.jpg
+SpaceX public domain, retina.jpg Mikael Haggstrom CC0) with PIL (python3-pil): neighbouring
+crops (look-alikes that are not copies), copies saved again, resized, cropped, brightened,
+mirrored, turned, greyed and labelled, some filed under another class, one picture copied ten
+times, flat and tiny pictures; kiln scans them and the synthetic catalogues reuse the
+fingerprints on random items. Exit status 0 when everything agrees, 1 on any mismatch (the
+first differing rows are shown), 77 when PIL or the pictures are missing.
+Options the tool does not offer yet are reported as "not yet available: <option>" and their
+cases are skipped.
 """
 import argparse
 import csv
@@ -23,11 +32,13 @@ import tempfile
 from collections import Counter, defaultdict
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import near_ref  # noqa: E402
 import split_ref  # noqa: E402
 
 COLUMNS = ["source", "path", "member", "size", "sha256", "format", "width", "height",
            "channels", "depth", "stored_depth", "orientation", "pages", "label", "class",
-           "group", "status", "reason", "pixel_sha256", "phash", "unit", "split"]
+           "group", "status", "reason", "pixel_sha256", "record_digest", "near_fingerprint",
+           "unit", "split"]
 ITEM_COLUMNS = ["row", "source", "path", "member", "size", "sha256", "label", "class", "group",
                 "unit", "split", "index", "status", "reason"]
 SPLITS = split_ref.SPLITS
@@ -83,8 +94,11 @@ def rand_name(rng, n):
     return b"_".join(parts) + b"_%d" % n + rng.choice([b".png", b".jpg", b".JPG"])
 
 
-def make_catalog(rng, n_ok):
-    """Returns catalogue rows (dicts of CSV text), sorted by (source, path, member)."""
+def make_catalog(rng, n_ok, pool=()):
+    """Returns catalogue rows (dicts of CSV text), sorted by (source, path, member). pool: real
+    fingerprints (text), each given to one random ok item and a few to two (identical
+    fingerprints on unrelated items: a link the unit rule must judge); some items get record
+    digests (as in a build's catalogue), some of them shared."""
     sources = ["/data/set A", '/data/b,"2"', "relative/src"]
     files = []     # dicts with raw fields; 'content' keys shared by duplicates
     counter = [0]
@@ -104,8 +118,7 @@ def make_catalog(rng, n_ok):
         return {"size": rng.randint(200, 900000), "sha256": "%064x" % rng.getrandbits(256),
                 "format": fmt, "width": w, "height": h, "channels": ch,
                 "depth": 8, "stored_depth": 8, "orientation": rng.choice([1, 1, 1, 6, 8]),
-                "pages": 1, "pixels": "%064x" % rng.getrandbits(256),
-                "phash": rng.getrandbits(64)}
+                "pages": 1, "pixels": "%064x" % rng.getrandbits(256)}
 
     for _ in range(n_ok):
         label = rng.choices(LABELS, LABEL_WEIGHTS)[0]
@@ -119,13 +132,15 @@ def make_catalog(rng, n_ok):
         c = dict(rng.choice(ok)["c"])                           # same pixels, other bytes
         c["sha256"], c["size"] = "%064x" % rng.getrandbits(256), rng.randint(200, 900000)
         f["c"] = c
-    for f in rng.sample(ok, n_ok // 12):
-        base = rng.choice(ok)["c"]["phash"]
-        if rng.random() < 0.3:
-            base = rng.choice([0, 2 ** 64 - 1, 0x8000000000000000, 1])   # flat images
-        d = rng.choice([0, 1, 2, 3, 4, 5, 6, 6, 7, 8, 10, 12, 16, 17])
-        mask = sum(1 << b for b in rng.sample(range(64), d))
-        f["c"] = dict(f["c"], phash=base ^ mask)
+    # Real fingerprints on random items (copies of one content keep one fingerprint, as identical
+    # files and pixels do), and record digests, a tenth of them shared.
+    givers = rng.sample(ok, min(len(ok), len(pool) + len(pool) // 10))
+    for k, f in enumerate(givers):
+        f["c"] = dict(f["c"], fp=pool[k % len(pool)]) if pool else f["c"]
+    records = ["%032x" % rng.getrandbits(128) for _ in range(n_ok // 8)]
+    for f in rng.sample(ok, n_ok // 6):
+        f["c"] = dict(f["c"], record=rng.choice(records) if rng.random() < 0.3 else
+                      "%032x" % rng.getrandbits(128))
     # Groups of 2..6 items, mostly one label; some odd keys (escapes, non-ASCII).
     pool = rng.sample(ok, int(n_ok * 0.35))
     g = 0
@@ -157,8 +172,7 @@ def make_catalog(rng, n_ok):
             f["c"] = {"size": 729, "sha256": "%064x" % rng.getrandbits(256)}
         elif st in ("corrupt", "truncated"):
             c = content()
-            for key in ("pixels", "phash"):
-                del c[key]
+            del c["pixels"]
             f["c"] = c
         if st == "unlabelled":
             f["label"] = ""
@@ -188,7 +202,8 @@ def make_catalog(rng, n_ok):
         r["status"] = f["status"]
         r["reason"] = f.get("reason", "")
         r["pixel_sha256"] = c.get("pixels", "")
-        r["phash"] = "%016x" % c["phash"] if "phash" in c else ""
+        r["near_fingerprint"] = c.get("fp", "")
+        r["record_digest"] = c.get("record", "")
         rows.append(r)
     rows.sort(key=lambda r: r["_raw"])
     for i, r in enumerate(rows):
@@ -265,7 +280,7 @@ def write_old_manifest(folder, rows, ref_units, rng, conflicts, twice=False):
     manifest = {
         "manifest_version": 1, "kiln_version": "0.1.0", "libraries": {}, "recipe": {},
         "recipe_sha256": hashlib.sha256(b"{}").hexdigest(), "scan": None,
-        "split": {"algorithm": "kiln-split-v1", "seed": "1", "ratios": "80:10:10",
+        "split": {"algorithm": "kiln-split-v2", "seed": "1", "ratios": "80:10:10",
                   "parts": 3, "mode": "exact", "stratify": False,
                   "items": {s: counts[s] for s in SPLITS}},
         "classes": LABELS, "counts": {s: {"records": counts[s]} for s in SPLITS},
@@ -290,10 +305,14 @@ def tool_args(case):
         a += ["--ratios", case["ratios"]]
     if case.get("stratify"):
         a.append("--stratify")
-    if case.get("near") == "default":
-        a.append("--merge-near-duplicates")
-    elif case.get("near") is not None:
-        a.append("--merge-near-duplicates=%d" % case["near"])
+    near = case.get("near")
+    if near == "off":
+        a += ["--near-duplicates", "off"]
+    elif near:
+        if "radius" in near:
+            a += ["--near-radius", str(near["radius"])]
+        if "limit" in near:
+            a += ["--near-unit-limit", str(near["limit"])]
     if case.get("keep"):
         a += ["--keep", case["keep"]]
     if case.get("keep_conflicts"):
@@ -342,11 +361,23 @@ def tool_assignment(rows, catalog, out, args):
     return result, p
 
 
-def ref_assignment(rows, case):
+def ref_settings(case):
+    near = case.get("near")
+    if near == "off":
+        return None
+    p = dict(near_ref.DEFAULTS)
+    if near and "radius" in near:
+        p["radius_full"] = p["radius_centre"] = near["radius"]
+    if near and "limit" in near:
+        p["max_pictures"] = near["limit"]
+    return p
+
+
+def ref_assignment(rows, case, links=None):
     res, report = split_ref.assign(rows, case["seed"], case.get("ratios") or "80:10:10",
                                    case["mode"], case.get("stratify", False),
-                                   6 if case.get("near") == "default" else case.get("near"),
-                                   case.get("keep"), case.get("keep_conflicts"))
+                                   ref_settings(case), case.get("keep"),
+                                   case.get("keep_conflicts"), links)
     return {rows[i]["_id"]: v for i, v in res.items()}
 
 
@@ -409,8 +440,9 @@ def check_sizes(rows, got, case):
     return ", ".join(notes)
 
 
-def check_record(out, rows, ref):
-    """The split record beside OUT (if the tool writes one) agrees on units and counts."""
+def check_record(out, rows, ref, links):
+    """The split record beside OUT (if the tool writes one) agrees on units and counts, and on
+    the near-duplicate links: their number, the verdicts, and the refused links it lists."""
     j = os.path.splitext(out)[0] + ".json"
     if not os.path.exists(j):
         return "no record"
@@ -418,8 +450,26 @@ def check_record(out, rows, ref):
     want_units = len({u for u, _ in ref.values()})
     want_items = Counter(s for _, s in ref.values())
     problems = []
-    if rec.get("algorithm") != "kiln-split-v1":
+    if rec.get("algorithm") != "kiln-split-v2":
         problems.append("algorithm %r" % rec.get("algorithm"))
+    near = rec.get("near_duplicates")
+    if links is not None and near is not None:
+        verdicts = Counter(v for *_, v in links)
+        for key, want in (("links", len(links)), ("linked", verdicts["linked"]),
+                          ("refused_different_labels", verdicts["refused: different labels"]),
+                          ("refused_too_many_pictures", verdicts["refused: too many pictures"])):
+            if near.get(key) != want:
+                problems.append("near_duplicates.%s %r, reference %d" % (key, near.get(key), want))
+        by_row = {i: r for i, r in enumerate(rows)}
+        # docs/formats.md: names as the records write them (escaped; "path/member")
+        name = lambda r: "/".join(x for x in (r["path"], r["member"]) if x)
+        want_refused = sorted((name(by_row[a]), name(by_row[b]), o, d, v)
+                              for a, b, o, d, v in links if v != "linked")
+        got_refused = sorted((l["items"][0]["name"], l["items"][1]["name"], l["orientation"],
+                              l["distance"], l["unit_rule"]) for l in near.get("refused", []))
+        if len(want_refused) <= 100 and got_refused != want_refused:
+            problems.append("refused links differ: %r vs reference %r" % (got_refused[:3],
+                                                                          want_refused[:3]))
     if "units" in rec and rec["units"] != want_units:
         problems.append("units %r, reference %d" % (rec["units"], want_units))
     items = rec.get("items") or {}
@@ -437,10 +487,11 @@ def run_case(name, rows, case, work, rng):
     for f in (os.path.splitext(cat)[0] + ".json", os.path.splitext(out)[0] + ".json"):
         if os.path.exists(f):
             os.remove(f)
-    ref = ref_assignment(rows, case)
+    links = [] if case.get("near") != "off" else None
+    ref = ref_assignment(rows, case, links)
     got, p = tool_assignment(rows, cat, out, tool_args(case))
     compare(rows, ref, got, name)
-    rec = check_record(out, rows, ref)
+    rec = check_record(out, rows, ref, links)
     sizes = "" if case.get("keep") else check_sizes(rows, got, case)
     # Same items, other row order and names: the same unit and split per item.
     moved = shuffled_renamed(rows, rng)
@@ -449,9 +500,73 @@ def run_case(name, rows, case, work, rng):
     compare(rows, got, got2, name + " (rows shuffled, files renamed)")
     n_units = len({u for u, _ in ref.values()})
     counts = Counter(s for _, s in got.values())
-    return "%d items, %d units, %s; shuffled+renamed same; %s%s" % (
-        len(got), n_units, "/".join(str(counts[s]) for s in SPLITS), rec,
+    nl = "" if links is None else "; %d links (%s)" % (len(links), ", ".join(
+        "%s %d" % (k, v) for k, v in sorted(Counter(v for *_, v in links).items())))
+    return "%d items, %d units, %s%s; shuffled+renamed same; %s%s" % (
+        len(got), n_units, "/".join(str(counts[s]) for s in SPLITS), nl, rec,
         "; " + sizes if sizes else "")
+
+
+SKI = "/usr/lib/python3/dist-packages/skimage/data"
+PICTURES = ["astronaut.png", "coffee.png", "chelsea.png", "camera.png", "rocket.jpg",
+            "retina.jpg"]
+
+
+def make_pool(work):
+    """The pictures of the fingerprint pool (module docstring), in class folders a-d, scanned
+    by kiln. Returns the scanned catalogue's rows (with _id and _raw as make_catalog's)."""
+    from PIL import Image, ImageDraw, ImageEnhance, ImageOps
+    top = os.path.join(work, "pool")
+    classes = "abcd"
+
+    def save(img, cls, name, **kw):
+        os.makedirs(os.path.join(top, cls), exist_ok=True)
+        img.save(os.path.join(top, cls, name), **kw)
+
+    for k, pic in enumerate(PICTURES):
+        im = Image.open(os.path.join(SKI, pic)).convert("RGB")
+        W, H = im.size
+        for j in range(4):                         # neighbouring crops: look-alikes
+            x0, y0 = W // 2 - 160 + (j % 2) * 160, H // 2 - 120 + (j // 2) * 120
+            crop = im.crop((x0, y0, x0 + 160, y0 + 120))
+            cls, other = classes[(k + j) % 4], classes[(k + j + 1) % 4]
+            base = "p%ds%d" % (k, j)
+            save(crop, cls, base + ".png")
+            t = (4 * k + j) % 8
+            if t == 0:
+                save(crop, cls, base + "_q70.jpg", quality=70)
+            elif t == 1:
+                save(crop.resize((100, 75), Image.BILINEAR), cls, base + "_small.png")
+            elif t == 2:                           # filed under another class: refused
+                save(ImageEnhance.Brightness(crop).enhance(1.25), other, base + "_bright.png")
+            elif t == 3:
+                save(ImageOps.mirror(crop), cls, base + "_mirror.png")
+            elif t == 4:
+                save(crop.transpose(Image.ROTATE_90), cls, base + "_turned.png")
+            elif t == 5:
+                save(crop.crop((6, 4, 156, 116)), cls, base + "_crop.png")
+            elif t == 6:
+                g = ImageOps.grayscale(crop).convert("RGB")
+                ImageDraw.Draw(g).rectangle((4, 100, 60, 116), fill=(255, 255, 255))
+                save(g, cls, base + "_label.png")
+            else:
+                save(crop, other, base + "_q85.jpg", quality=85)
+            if k == 0 and j == 0:                  # ten copies: more than 8 pictures
+                for q in range(50, 100, 5):
+                    save(crop, cls, base + "_many%d.jpg" % q, quality=q)
+    save(Image.new("RGB", (64, 48), (128, 128, 128)), "a", "flat.png")
+    save(Image.linear_gradient("L").resize((64, 48)), "b", "gradient.png")
+    save(Image.open(os.path.join(SKI, "coffee.png")).crop((200, 200, 210, 210)), "c", "tiny.png")
+    save(Image.open(os.path.join(SKI, "coffee.png")).crop((200, 200, 210, 210)), "d", "tiny2.png")
+    cat = os.path.join(work, "pool.csv")
+    p = subprocess.run([KILN, "scan", top, "-o", cat, "-q"], capture_output=True, text=True)
+    if p.returncode != 0:
+        raise Mismatch("kiln scan of the pool exited %d: %s" % (p.returncode, p.stderr))
+    rows = read_csv(cat)
+    for i, r in enumerate(rows):
+        r["_id"] = i
+        r["_raw"] = tuple(split_ref.unescape(r[c]) for c in ("source", "path", "member"))
+    return rows
 
 
 def main():
@@ -462,16 +577,31 @@ def main():
     a = ap.parse_args()
     if not KILN:
         sys.exit("split_compare: set KILN to the kiln binary")
+    try:
+        import PIL  # noqa: F401
+    except ImportError:
+        print("SKIP: PIL (Debian python3-pil) is needed for the fingerprint pool")
+        return 77
+    missing = [f for f in PICTURES if not os.path.exists(os.path.join(SKI, f))]
+    if missing:
+        print("SKIP: scikit-image's pictures (Debian python3-skimage) are missing: %s"
+              % ", ".join(missing))
+        return 77
     work = os.path.abspath(a.work or tempfile.mkdtemp(prefix="split-compare-"))
     help_text = subprocess.run([KILN, "split", "--help"], capture_output=True,
                                text=True).stdout
-    have_near = "--merge-near-duplicates" in help_text
+    have_near = "--near-duplicates" in help_text
     have_keep = re.search(r"--keep(?!-)", help_text) is not None
     have_conflicts = "--keep-conflicts" in help_text
-    for opt, have in (("--merge-near-duplicates", have_near), ("--keep", have_keep),
+    for opt, have in (("--near-duplicates", have_near), ("--keep", have_keep),
                       ("--keep-conflicts", have_conflicts)):
         if not have:
             print("not yet available: " + opt)
+    os.makedirs(work, exist_ok=True)
+    pool_rows = make_pool(work)
+    pool = [r["near_fingerprint"] for r in pool_rows
+            if r["status"] == "ok" and r["near_fingerprint"]]
+    print("fingerprint pool: %d pictures scanned by kiln" % len(pool))
 
     seeds = [0, 1, 42, 2026, 2 ** 64 - 1, 123456789012345678, 2 ** 63, 7]
     base = [
@@ -487,15 +617,39 @@ def main():
         dict(mode="stable", ratios="80:10:10"),
     ]
     near = [
-        dict(mode="exact", ratios="70:15:15", stratify=True, near="default"),
-        dict(mode="stable", ratios="70:30", near=0),
-        dict(mode="exact", ratios="70:30", near=16),
-        dict(mode="stable", ratios="70:15:15", stratify=True, near=3),
+        dict(mode="exact", ratios="70:15:15", stratify=True, near="off"),
+        dict(mode="stable", ratios="70:30", near={"limit": 2}),
+        dict(mode="exact", ratios="70:30", near={"radius": 0}),
+        dict(mode="stable", ratios="70:15:15", stratify=True, near={"radius": 16, "limit": 3}),
     ]
     total = passed = 0
+
+    def run(name, rows, c, where, rng):
+        nonlocal total, passed
+        total += 1
+        try:
+            if c.get("_expect_error"):
+                summary = expect_conflict_error(rows, c, where)
+            else:
+                summary = run_case(name, rows, c, where, rng)
+            passed += 1
+            print("ok   %s: %s" % (name, summary))
+        except Mismatch as e:
+            failures.append(name)
+            print("FAIL %s:\n%s" % (name, e))
+        sys.stdout.flush()
+
+    # The scanned pool as it is: real labels, copies under other classes, the ten copies.
+    rng = random.Random(77)
+    for k, c in enumerate([dict(mode="exact", ratios="70:15:15", stratify=True),
+                           dict(mode="stable", ratios="70:30")] +
+                          ([dict(c) for c in near] if have_near else [])):
+        c["seed"] = seeds[k % len(seeds)]
+        run("scanned pool case %d [%s]" % (k, " ".join(tool_args(c))), pool_rows, c,
+            os.path.join(work, "pool-case%d" % k), rng)
     for g in range(a.catalogs):
         rng = random.Random(1000 + g)
-        rows = make_catalog(rng, a.items + 100 * g)
+        rows = make_catalog(rng, a.items + 100 * g, pool)
         cases = [dict(c) for c in base]
         if have_near:
             cases += [dict(c) for c in near]
@@ -506,7 +660,7 @@ def main():
                          ("conflict", dict(mode="exact", ratios="70:15:15"))]
             if have_near:
                 keep_plan.append(("keep", dict(mode="stable", ratios="70:15:15",
-                                               near="default")))
+                                               near={"limit": 3})))
         for k, c in enumerate(cases):
             c["seed"] = seeds[(k + 3 * g) % len(seeds)]
         cdir = os.path.join(work, "catalog%d" % g)
@@ -527,37 +681,26 @@ def main():
                 if not have_conflicts:
                     continue
             cases.append(c)
-        print("catalogue %d: %d rows, %d ok" % (g, len(rows),
-                                                 sum(r["status"] == "ok" for r in rows)))
+        print("catalogue %d: %d rows, %d ok, %d with a fingerprint" % (
+            g, len(rows), sum(r["status"] == "ok" for r in rows),
+            sum(bool(r["near_fingerprint"]) for r in rows)))
         for k, c in enumerate(cases):
-            total += 1
             name = "catalogue %d case %d [%s]" % (g, k, " ".join(
                 x if not x.startswith("/") else os.path.basename(os.path.dirname(x))
                 for x in tool_args(c)))
-            try:
-                if c.get("_expect_error"):
-                    summary = expect_conflict_error(rows, c, os.path.join(cdir, "case%d" % k))
-                else:
-                    summary = run_case(name, rows, c, os.path.join(cdir, "case%d" % k), rng)
-                passed += 1
-                print("ok   %s: %s" % (name, summary))
-            except Mismatch as e:
-                failures.append(name)
-                print("FAIL %s:\n%s" % (name, e))
-            sys.stdout.flush()
+            run(name, rows, c, os.path.join(cdir, "case%d" % k), rng)
     if have_keep and have_conflicts:
         note_twice(work)
     if have_near:
         p, cmd = run_tool(os.path.join(work, "catalog0", "case0", "catalog.csv"),
-                          os.path.join(work, "bad.csv"),
-                          ["--seed", "1", "--merge-near-duplicates=17"])
+                          os.path.join(work, "bad.csv"), ["--seed", "1", "--near-radius", "17"])
         total += 1
         if p.returncode == 2:
             passed += 1
-            print("ok   --merge-near-duplicates=17 refused with status 2")
+            print("ok   --near-radius 17 refused with status 2")
         else:
-            failures.append("BITS=17")
-            print("FAIL --merge-near-duplicates=17 exited %d, expected 2" % p.returncode)
+            failures.append("radius 17")
+            print("FAIL --near-radius 17 exited %d, expected 2" % p.returncode)
     print("%d of %d cases agree with the reference" % (passed, total))
     if failures:
         print("split_compare: MISMATCH in %d cases: %s" % (len(failures), "; ".join(failures)))

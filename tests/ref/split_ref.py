@@ -1,14 +1,16 @@
 #!/usr/bin/env python3
-"""Reference implementation of kiln's split algorithm `kiln-split-v1`, written from
-docs/split.md (and docs/formats.md for catalog.csv, items.csv and the %XX name escape) alone.
-Standard library only; a specification check, not production code.
+"""Reference implementation of kiln's split algorithm `kiln-split-v2`, written from
+docs/split.md (and docs/formats.md for catalog.csv, items.csv and the %XX name escape;
+near_ref.py implements docs/near-duplicates.md for rule 5) alone. Standard library only; a
+specification check, not production code.
 
     split_ref.py catalog.csv --seed N [--ratios A:B[:C]] [--mode exact|stable] [--stratify]
-                 [--merge-near-duplicates[=BITS]] [--keep OLD_MANIFEST]
-                 [--keep-conflicts test] [-o OUT.csv]
+                 [--near-duplicates on|off] [--near-radius BITS] [--near-unit-limit N]
+                 [--keep OLD_MANIFEST] [--keep-conflicts test] [-o OUT.csv] [--links OUT.csv]
 
 Writes one CSV row per ok catalogue row: row (0-based data row of the input), source, path,
-member, unit (16 hex digits), split.
+member, unit (16 hex digits), split. --links writes the checked near-duplicate links: rows of
+both items, orientation, distance, verdict.
 """
 import argparse
 import csv
@@ -20,8 +22,11 @@ import sys
 from collections import Counter, defaultdict
 from decimal import Decimal, InvalidOperation
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+import near_ref  # noqa: E402
+
 SPLITS = ("train", "val", "test")
-ALGORITHM = b"kiln-split-v1"
+ALGORITHM = b"kiln-split-v2"
 
 
 class SplitError(Exception):
@@ -65,19 +70,22 @@ def parse_ratios(text):
     return vals
 
 
-def popcount(x):
-    return bin(x).count("1")
-
-
-def near_duplicate_pairs(items, bits):
-    """§2 rule 4, by brute force over all pairs (kiln uses multi-index hashing, which the
-    document says finds exactly the same pairs)."""
-    hashed = [(i, int(r["phash"], 16)) for i, r in enumerate(items) if r["phash"]]
-    for a in range(len(hashed)):
-        ia, ha = hashed[a]
-        for ib, hb in hashed[a + 1:]:
-            if popcount(ha ^ hb) <= bits:
-                yield ia, ib
+def near_links(items, exact_of, settings):
+    """§2 rule 5 and §2.1: the checked near-duplicate links among items (ok rows), each
+    (item a, item b, orientation, distance, verdict), and the accepted ones."""
+    pics = sorted((i for i, r in enumerate(items) if r.get("near_fingerprint")),
+                  key=lambda i: (bytes.fromhex(items[i]["sha256"]), i))
+    fps = [near_ref.Fingerprint(items[i]["near_fingerprint"]) for i in pics]
+    links = []
+    for a, b, o, src, d, dc in near_ref.candidates(fps, settings):
+        m = near_ref.check(fps[a], fps[b], o, src)
+        if m is not None:
+            links.append((pics[a], pics[b], o, d, m))
+    labels = {i: (int(r["class"]) if r["class"] not in ("", "-1") else None)
+              for i, r in enumerate(items)}
+    verdict = near_ref.unit_rule(links, exact_of, labels, settings["max_pictures"])
+    out = [(a, b, o, d, verdict[k]) for k, (a, b, o, d, m) in enumerate(links)]
+    return out, [(a, b) for a, b, o, d, v in out if v == "linked"]
 
 
 def read_old_assignment(manifest):
@@ -91,10 +99,11 @@ def read_old_assignment(manifest):
     return old
 
 
-def assign(rows, seed, ratios="80:10:10", mode="exact", stratify=False, near_bits=None,
-           keep=None, keep_conflicts=None):
-    """rows: catalogue rows (dicts). Returns {row index: (unit hex, split name)} for ok rows
-    and a list of report lines."""
+def assign(rows, seed, ratios="80:10:10", mode="exact", stratify=False, near=None,
+           keep=None, keep_conflicts=None, links_out=None):
+    """rows: catalogue rows (dicts). near: the near-duplicate settings (near_ref.DEFAULTS, maybe
+    changed), or None when off. Returns {row index: (unit hex, split name)} for ok rows and a
+    list of report lines; links_out, a list, receives the checked links (rows, o, d, verdict)."""
     r = parse_ratios(ratios)
     R = sum(r)
     report = []
@@ -116,15 +125,20 @@ def assign(rows, seed, ratios="80:10:10", mode="exact", stratify=False, near_bit
         if a != b:
             parent[max(a, b)] = min(a, b)
 
-    for column in ("group", "sha256", "pixel_sha256"):
+    for column in ("group", "sha256", "pixel_sha256", "record_digest"):     # rules 1-4
         first = {}
         for i, row in enumerate(items):
-            v = unescape(row[column]) if column == "group" else row[column]
+            v = row.get(column, "")
+            v = unescape(v) if column == "group" else v
             if v:
                 union(i, first.setdefault(v, i))
-    if near_bits is not None:
-        for a, b in near_duplicate_pairs(items, near_bits):
+    if near is not None:                                                       # rule 5
+        exact_of = {i: find(i) for i in range(n)}
+        checked, accepted = near_links(items, exact_of, near)
+        for a, b in accepted:
             union(a, b)
+        if links_out is not None:
+            links_out.extend((idx[a], idx[b], o, d, v) for a, b, o, d, v in checked)
     members = defaultdict(list)
     for i in range(n):
         members[find(i)].append(i)
@@ -214,20 +228,30 @@ def main(argv=None):
     ap.add_argument("--ratios", default="80:10:10")
     ap.add_argument("--mode", default="exact", choices=("exact", "stable"))
     ap.add_argument("--stratify", action="store_true")
-    ap.add_argument("--merge-near-duplicates", nargs="?", const=6, type=int, default=None,
-                    metavar="BITS")
+    ap.add_argument("--near-duplicates", choices=("on", "off"), default="on")
+    ap.add_argument("--near-radius", type=int, metavar="BITS")
+    ap.add_argument("--near-unit-limit", type=int, metavar="N")
+    ap.add_argument("--links", metavar="OUT.csv")
     ap.add_argument("--keep", metavar="OLD_MANIFEST")
     ap.add_argument("--keep-conflicts", choices=("test",))
     ap.add_argument("-o", "--output")
     a = ap.parse_args(argv)
     if not 0 <= a.seed < 2 ** 64:
         ap.error("seed must be 0 to 2^64-1")
-    if a.merge_near_duplicates is not None and not 0 <= a.merge_near_duplicates <= 16:
-        ap.error("--merge-near-duplicates BITS must be 0 to 16")
+    near = dict(near_ref.DEFAULTS) if a.near_duplicates == "on" else None
+    if near is not None and a.near_radius is not None:
+        if not 0 <= a.near_radius <= 16:
+            ap.error("--near-radius must be 0 to 16")
+        near["radius_full"] = near["radius_centre"] = a.near_radius
+    if near is not None and a.near_unit_limit is not None:
+        if a.near_unit_limit < 2:
+            ap.error("--near-unit-limit must be at least 2")
+        near["max_pictures"] = a.near_unit_limit
     rows = read_csv(a.catalog)
+    links = []
     try:
-        result, report = assign(rows, a.seed, a.ratios, a.mode, a.stratify,
-                                a.merge_near_duplicates, a.keep, a.keep_conflicts)
+        result, report = assign(rows, a.seed, a.ratios, a.mode, a.stratify, near, a.keep,
+                                a.keep_conflicts, links)
     except SplitError as e:
         print("split_ref: error:", e, file=sys.stderr)
         return 3
@@ -240,6 +264,11 @@ def main(argv=None):
         w.writerow([i, rows[i]["source"], rows[i]["path"], rows[i]["member"]] + list(result[i]))
     if a.output:
         f.close()
+    if a.links:
+        with open(a.links, "w", newline="", encoding="utf-8") as f:
+            w = csv.writer(f, lineterminator="\r\n")
+            w.writerow(["row_a", "row_b", "orientation", "distance", "unit_rule"])
+            w.writerows(links)
     return 0
 
 

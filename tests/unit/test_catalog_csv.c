@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "../../formats/files/catalog_csv.h"
+#include "../../formats/files/fpstore.h"
 
 static char tmpdir[64];
 static char path[128];
@@ -59,12 +60,33 @@ static void fill_digest(uint8_t *d, unsigned seed)
         d[i] = (uint8_t)(seed * 131u + (unsigned)i * 17u + 1u);
 }
 
-/* A catalogue where every column holds something: ok rows with image fields, pixels and a
- * split; non-ok rows of several kinds with reasons and no split. */
+/* A fingerprint with every field in use (kiln_nearfp_decode accepts it). */
+static void fill_fingerprint(struct kiln_nearfp *fp, unsigned seed)
+{
+    memset(fp, 0, sizeof *fp);
+    fp->hash = (UINT64_C(0x9e3779b97f4a7c15) * (seed + 1)) & ~UINT64_C(1);
+    fp->centre = (UINT64_C(0xc2b2ae3d27d4eb4f) * (seed + 3)) & ~UINT64_C(1);
+    fp->info = (uint16_t)(seed % 3 == 0 ? 5 : 100 + seed * 977u);
+    fp->flags = seed % 3 == 0 ? KILN_NEARFP_LOWINFO : 0;
+    if (seed % 2) {
+        fp->chroma_scale = 40000u + seed;
+        for (int i = 0; i < 16; i++) {
+            fp->chroma[i][0] = (int8_t)((int)(seed * 7 + (unsigned)i * 13) % 255 - 127);
+            fp->chroma[i][1] = (int8_t)(i % 2 ? -127 : 127);
+        }
+    }
+    for (int i = 0; i < 256; i++)
+        fp->thumb[i] = (uint8_t)(seed * 31u + (unsigned)i * 7u);
+}
+
+/* A catalogue where every column holds something: ok rows with image fields, pixels,
+ * fingerprints and a split; non-ok rows of several kinds with reasons and no split. */
 static void build_catalog(struct kiln_catalog *cat)
 {
     struct kiln_err err = {0};
     kiln_catalog_init(cat);
+    assert_int_equal(kiln_fpstore_open(&cat->fps, tmpdir, &err), KILN_OK);
+    cat->fps_close = kiln_fpstore_close;
     for (unsigned i = 0; i < NHOSTILE; i++) {
         struct kiln_item it;
         memset(&it, 0, sizeof it);
@@ -79,6 +101,7 @@ static void build_catalog(struct kiln_catalog *cat)
         it.has_sha = 1;
         it.class_index = -1;
         it.split = KILN_SPLIT_NONE;
+        it.fp_slot = KILN_FP_NONE;
         if (i % 4 != 1) {
             it.status = KILN_ST_OK;
             it.format = i % 2 ? "png" : "jpeg";
@@ -92,13 +115,20 @@ static void build_catalog(struct kiln_catalog *cat)
             it.class_index = it.label[0] ? (int32_t)i : -1;
             it.has_pixels = 1;
             fill_digest(it.pixel_sha256, 1000 + i);
-            it.phash = UINT64_C(0xfedcba9876543210) ^ ((uint64_t)i << 56) ^ i;
+            if (i % 5 != 4) {
+                struct kiln_nearfp fp;
+                fill_fingerprint(&fp, i);
+                assert_int_equal(kiln_fpstore_put(cat->fps, &fp, &it.fp_slot, &err), KILN_OK);
+            }
+            if (i % 2) {
+                it.has_record = 1;
+                for (int k = 0; k < KILN_RECORD_DIGEST_LEN; k++)
+                    it.record_digest[k] = (uint8_t)(i == 3 ? (unsigned)k : 255u - (unsigned)k * i);
+            }
             it.split = (int8_t)(i % 3);
             it.unit_key = UINT64_C(0x0123456789abcdef) * (i + 1);
-            if (i == 2) { /* small values need their leading zeros kept */
-                it.phash = 1;
+            if (i == 2) /* small values need their leading zeros kept */
                 it.unit_key = 0x2a;
-            }
         } else {
             static const int bad[] = {KILN_ST_CORRUPT, KILN_ST_NOT_IMAGE, KILN_ST_EMPTY,
                                       KILN_ST_TRUNCATED};
@@ -126,7 +156,8 @@ static void build_catalog(struct kiln_catalog *cat)
     }
 }
 
-static void assert_items_equal(const struct kiln_item *a, const struct kiln_item *b)
+static void assert_items_equal(const struct kiln_catalog *ca, const struct kiln_item *a,
+                               const struct kiln_catalog *cb, const struct kiln_item *b)
 {
     assert_string_equal(a->source, b->source);
     assert_string_equal(a->path, b->path);
@@ -136,7 +167,20 @@ static void assert_items_equal(const struct kiln_item *a, const struct kiln_item
     assert_string_equal(a->group, b->group);
     assert_string_equal(a->reason, b->reason);
     assert_int_equal(a->size, b->size);
-    assert_int_equal(a->phash, b->phash);
+    assert_int_equal(a->fp_slot == KILN_FP_NONE, b->fp_slot == KILN_FP_NONE);
+    if (a->fp_slot != KILN_FP_NONE) {
+        struct kiln_nearfp fa, fb;
+        uint8_t ea[KILN_NEARFP_BYTES], eb[KILN_NEARFP_BYTES];
+        struct kiln_err err = {0};
+        assert_int_equal(kiln_fpstore_get(ca->fps, a->fp_slot, &fa, &err), KILN_OK);
+        assert_int_equal(kiln_fpstore_get(cb->fps, b->fp_slot, &fb, &err), KILN_OK);
+        kiln_nearfp_encode(&fa, ea);
+        kiln_nearfp_encode(&fb, eb);
+        assert_memory_equal(ea, eb, KILN_NEARFP_BYTES);
+    }
+    assert_int_equal(a->has_record, b->has_record);
+    if (a->has_record)
+        assert_memory_equal(a->record_digest, b->record_digest, KILN_RECORD_DIGEST_LEN);
     assert_int_equal(a->unit_key, b->unit_key);
     assert_memory_equal(a->sha256, b->sha256, KILN_SHA256_LEN);
     assert_memory_equal(a->pixel_sha256, b->pixel_sha256, KILN_SHA256_LEN);
@@ -162,6 +206,8 @@ static void test_round_trip(void **state)
     build_catalog(&cat);
     assert_int_equal(kiln_catalog_csv_save(path, &cat, &err), KILN_OK);
     kiln_catalog_init(&back);
+    assert_int_equal(kiln_fpstore_open(&back.fps, NULL, &err), KILN_OK);
+    back.fps_close = kiln_fpstore_close;
     bool has_split = false;
     int rc = kiln_catalog_csv_load(path, &back, &has_split, &err);
     if (rc)
@@ -170,7 +216,7 @@ static void test_round_trip(void **state)
     assert_true(has_split);
     assert_int_equal(back.n, cat.n);
     for (size_t i = 0; i < cat.n; i++)
-        assert_items_equal(&back.items[i], &cat.items[i]);
+        assert_items_equal(&back, &back.items[i], &cat, &cat.items[i]);
     /* Saving what was loaded gives the same bytes (a second round trip changes nothing). */
     char path2[160];
     snprintf(path2, sizeof path2, "%s/again.csv", tmpdir);
@@ -187,6 +233,69 @@ static void test_round_trip(void **state)
     fclose(f2);
     unlink(path2);
     kiln_catalog_free(&back);
+    /* Read without a store, the fingerprints are checked but not kept, and the catalogue
+     * refuses to be written rather than lose them. */
+    kiln_catalog_init(&back);
+    assert_int_equal(kiln_catalog_csv_load(path, &back, &has_split, &err), KILN_OK);
+    assert_int_equal(back.items[0].fp_slot, KILN_FP_SKIPPED);
+    assert_int_equal(kiln_catalog_csv_save(path2, &back, &err), KILN_EINTERNAL);
+    assert_non_null(strstr(err.msg, "fingerprints"));
+    assert_int_equal(access(path2, F_OK), -1);
+    kiln_catalog_free(&back);
+    kiln_catalog_free(&cat);
+}
+
+/* The test catalogue, built and saved for a check by Python (skips without Python). */
+static void save_for_python(struct kiln_catalog *cat)
+{
+    if (access(KILN_PYTHON, X_OK) != 0) {
+        print_message("skipped: %s is not available\n", KILN_PYTHON);
+        skip();
+    }
+    struct kiln_err err = {0};
+    build_catalog(cat);
+    assert_int_equal(kiln_catalog_csv_save(path, cat, &err), KILN_OK);
+}
+
+/* The fingerprint column is RFC 4648 base64 of the documented bytes: Python's base64 module
+ * decodes what kiln wrote to kiln_nearfp_encode's bytes, whose fields sit where
+ * docs/formats.md says (version byte 1, then flags, big-endian info, hash and centre). */
+static void test_fingerprint_text(void **state)
+{
+    (void)state;
+    struct kiln_catalog cat;
+    struct kiln_err err = {0};
+    save_for_python(&cat);
+    char cmd[512];
+    snprintf(cmd, sizeof cmd,
+             "%s -c \"import csv,sys,base64\n"
+             "for r in csv.DictReader(open(sys.argv[1],newline='')):\n"
+             " print(base64.b64decode(r['near_fingerprint'],validate=True).hex() or '-')\" %s",
+             KILN_PYTHON, path);
+    FILE *p = popen(cmd, "r");
+    assert_non_null(p);
+    for (size_t i = 0; i < cat.n; i++) {
+        char hex[2 * KILN_NEARFP_BYTES + 2];
+        assert_int_equal(fscanf(p, "%625s", hex), 1);
+        const struct kiln_item *it = &cat.items[i];
+        if (it->fp_slot == KILN_FP_NONE) {
+            assert_string_equal(hex, "-");
+            continue;
+        }
+        struct kiln_nearfp fp;
+        uint8_t want[KILN_NEARFP_BYTES];
+        char wanthex[sizeof hex];
+        assert_int_equal(kiln_fpstore_get(cat.fps, it->fp_slot, &fp, &err), KILN_OK);
+        kiln_nearfp_encode(&fp, want);
+        for (int k = 0; k < KILN_NEARFP_BYTES; k++)
+            snprintf(wanthex + 2 * k, 3, "%02x", want[k]);
+        assert_string_equal(hex, wanthex);
+        char head[64];
+        snprintf(head, sizeof head, "01%02x%04x%016" PRIx64 "%016" PRIx64, fp.flags, fp.info,
+                 fp.hash, fp.centre);
+        assert_memory_equal(hex, head, strlen(head));
+    }
+    assert_int_equal(pclose(p), 0);
     kiln_catalog_free(&cat);
 }
 
@@ -197,14 +306,8 @@ static void test_round_trip(void **state)
 static void test_python_reads_it(void **state)
 {
     (void)state;
-    if (access(KILN_PYTHON, X_OK) != 0) {
-        print_message("skipped: %s is not available\n", KILN_PYTHON);
-        skip();
-    }
     struct kiln_catalog cat;
-    struct kiln_err err = {0};
-    build_catalog(&cat);
-    assert_int_equal(kiln_catalog_csv_save(path, &cat, &err), KILN_OK);
+    save_for_python(&cat);
     char cmd[512];
     snprintf(cmd, sizeof cmd,
              "%s -c \"import csv,sys,urllib.parse as u\n"
@@ -235,7 +338,16 @@ static void test_python_reads_it(void **state)
 
 static const char header[] =
     "source,path,member,size,sha256,format,width,height,channels,depth,stored_depth,"
-    "orientation,pages,label,class,group,status,reason,pixel_sha256,phash,unit,split\r\n";
+    "orientation,pages,label,class,group,status,reason,pixel_sha256,near_fingerprint,unit,split,"
+    "record_digest\r\n";
+/* base64 of a fingerprint's 312 bytes: version 1, flags "low information", the rest 0 (valid);
+ * the same with version 2; and with the low-information flag missing though info is 0. */
+#define A4 "AAAA"
+#define A64 A4 A4 A4 A4 A4 A4 A4 A4 A4 A4 A4 A4 A4 A4 A4 A4
+#define FP_TAIL A64 A64 A64 A64 A64 A64 A4 A4 A4 A4 A4 A4 A4 /* 412 characters */
+#define FP_OK "AQEA" FP_TAIL
+#define FP_V2 "AgEA" FP_TAIL
+#define FP_NOFLAG "AQAA" FP_TAIL
 #define SHA_A "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
 #define GOOD_ROW "s,a.png,,10," SHA_A ",png,2,3,1,8,8,1,1,cat,0,,ok,,,,,\r\n"
 
@@ -283,7 +395,20 @@ static void test_bad_rows(void **state)
     expect_bad_row("s,c.png,,10," SHA_A ",gif,2,3,1,8,8,1,1,,,,ok,,,,,\r\n", "format");
     expect_bad_row("s,c%00.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,,,,,\r\n", "path");
     expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,," SHA_A ",123,,\r\n",
-                   "phash");
+                   "near_fingerprint");
+    expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,," SHA_A "," FP_V2 ",,\r\n",
+                   "near_fingerprint");
+    expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,," SHA_A "," FP_NOFLAG ",,\r\n",
+                   "near_fingerprint");
+    expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,," SHA_A ",A" FP_OK ",,\r\n",
+                   "near_fingerprint");
+    expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,," SHA_A ",=" FP_OK ",,\r\n",
+                   "near_fingerprint");
+    expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,,,,,,0123\r\n",
+                   "record_digest");
+    expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,,,,,,"
+                   "0123456789ABCDEF0123456789abcdef\r\n",
+                   "record_digest");
     expect_bad_row("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,,,,0123456789abcdef,dev\r\n",
                    "split");
     expect_bad_row("s,c.png,,10," SHA_A ",,,,,,,,,,,,corrupt,bad,,,0123456789abcdef,train\r\n",
@@ -329,6 +454,29 @@ static void test_missing_column_and_empty(void **state)
     assert_int_equal(cat.items[1].status, KILN_ST_EMPTY);
     assert_int_equal(cat.items[1].split, KILN_SPLIT_NONE);
     kiln_catalog_free(&cat);
+    /* A valid fingerprint loads. */
+    f = fopen(path, "wb");
+    assert_non_null(f);
+    fputs(header, f);
+    fputs("s,c.png,,10," SHA_A ",png,2,3,1,8,8,1,1,,,,ok,," SHA_A "," FP_OK ",,\r\n", f);
+    assert_int_equal(fclose(f), 0);
+    kiln_catalog_init(&cat);
+    assert_int_equal(kiln_catalog_csv_load(path, &cat, &has_split, &err), KILN_OK);
+    assert_int_equal(cat.items[0].fp_slot, KILN_FP_SKIPPED);
+    kiln_catalog_free(&cat);
+    /* A catalogue of an earlier kiln (difference hashes, no fingerprints) is refused with what
+     * to do. */
+    f = fopen(path, "wb");
+    assert_non_null(f);
+    fputs("source,path,member,size,sha256,status,pixel_sha256,phash\r\n"
+          "s,p.png,,3," SHA_A ",ok," SHA_A ",0123456789abcdef\r\n",
+          f);
+    assert_int_equal(fclose(f), 0);
+    kiln_catalog_init(&cat);
+    assert_int_equal(kiln_catalog_csv_load(path, &cat, &has_split, &err), KILN_EUNSUPPORTED);
+    assert_non_null(strstr(err.msg, "earlier kiln"));
+    assert_non_null(strstr(err.msg, "scan the sources again"));
+    kiln_catalog_free(&cat);
 }
 
 int main(void)
@@ -336,6 +484,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_round_trip),
         cmocka_unit_test(test_python_reads_it),
+        cmocka_unit_test(test_fingerprint_text),
         cmocka_unit_test(test_bad_rows),
         cmocka_unit_test(test_missing_column_and_empty),
     };

@@ -138,96 +138,6 @@ static void check_against_brute(const uint64_t *h, const uint8_t *use, size_t n,
     free(ref.p);
 }
 
-/* The smallest member of each item's component, by repeated relabelling over the pairs until
- * nothing changes: a fixpoint that needs no union-find, so it shares no code with the users of
- * kiln_neardup_links. Unused items keep their own index. */
-static void components(const uint32_t (*pair)[2], size_t np, size_t n, uint32_t *label)
-{
-    for (size_t i = 0; i < n; i++)
-        label[i] = (uint32_t)i;
-    for (bool changed = true; changed;) {
-        changed = false;
-        for (size_t k = 0; k < np; k++) {
-            uint32_t a = pair[k][0], b = pair[k][1];
-            uint32_t m = label[a] < label[b] ? label[a] : label[b];
-            if (label[a] != m || label[b] != m) {
-                label[a] = label[b] = m;
-                changed = true;
-            }
-        }
-    }
-}
-
-/* Links must give the components of the brute-force pair list, each link a real pair within
- * the radius, in (i, j) order, and far fewer links than pairs on clustered data. */
-static void check_links(const uint64_t *h, const uint8_t *use, size_t n, unsigned radius)
-{
-    struct ref ref = {0};
-    brute_force(h, use, n, radius, &ref);
-    uint32_t (*pairs)[2] = malloc((ref.n ? ref.n : 1) * sizeof *pairs);
-    uint32_t *want = malloc(n * sizeof *want), *got_label = malloc(n * sizeof *got_label);
-    assert_non_null(pairs);
-    assert_non_null(want);
-    assert_non_null(got_label);
-    for (size_t k = 0; k < ref.n; k++) {
-        pairs[k][0] = ref.p[k].i;
-        pairs[k][1] = ref.p[k].j;
-    }
-    components((const uint32_t (*)[2])pairs, ref.n, n, want);
-    struct kiln_pairs got = {0};
-    struct kiln_err err = {0};
-    assert_int_equal(kiln_neardup_links(h, use, n, radius, &got, &err), KILN_OK);
-    for (size_t k = 0; k < got.n; k++) {
-        assert_true(got.pair[k][0] < got.pair[k][1]);
-        assert_true(hamming(h[got.pair[k][0]], h[got.pair[k][1]]) <= radius);
-        assert_true(!use || (use[got.pair[k][0]] && use[got.pair[k][1]]));
-        if (k)
-            assert_true(cmp_pair_ref(got.pair[k - 1], got.pair[k]) < 0);
-    }
-    components((const uint32_t (*)[2])got.pair, got.n, n, got_label);
-    for (size_t i = 0; i < n; i++)
-        if (want[i] != got_label[i])
-            fail_msg("radius %u: item %zu in the component of %u, expected %u", radius, i,
-                     got_label[i], want[i]);
-    assert_true(got.n <= ref.n);
-    kiln_pairs_free(&got);
-    free(pairs);
-    free(want);
-    free(got_label);
-    free(ref.p);
-}
-
-static void test_links(void **state)
-{
-    (void)state;
-    enum { N = 3000 };
-    uint64_t s = 77, centre[40], h[N];
-    uint8_t use[N];
-    for (int c = 0; c < 40; c++)
-        centre[c] = splitmix64(&s);
-    for (int i = 0; i < N; i++) {
-        uint64_t c = centre[below(&s, 40)];
-        h[i] = i % 3 ? c : flip_bits(c, below(&s, 9), &s);
-        use[i] = below(&s, 10) != 0;
-    }
-    for (unsigned r = 0; r <= 8; r += 2) {
-        check_links(h, NULL, N, r);
-        check_links(h, use, N, r);
-    }
-    /* 2 000 equal hashes: 1 999 links where the pair list holds 1 999 000. */
-    static uint64_t same[2000];
-    struct kiln_pairs got = {0};
-    struct kiln_err err = {0};
-    assert_int_equal(kiln_neardup_links(same, NULL, 2000, 6, &got, &err), KILN_OK);
-    assert_int_equal(got.n, 1999);
-    for (uint32_t k = 0; k < 1999; k++) {
-        assert_int_equal(got.pair[k][0], 0);
-        assert_int_equal(got.pair[k][1], k + 1);
-    }
-    kiln_pairs_free(&got);
-    assert_int_equal(kiln_neardup_links(same, NULL, 2000, 17, &got, &err), KILN_EINVAL);
-}
-
 static void test_reference_distance(void **state)
 {
     (void)state;
@@ -694,7 +604,6 @@ int main(void)
         cmocka_unit_test(test_substring_boundaries),
         cmocka_unit_test(test_append),
         cmocka_unit_test(test_errors),
-        cmocka_unit_test(test_links),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -72,7 +72,7 @@ static void test_candidates(void **state)
 {
     (void)state;
     enum { N = 1500 };
-    struct kiln_nearfp *fp = calloc(N, sizeof *fp);
+    struct kiln_nearkey *fp = calloc(N, sizeof *fp);
     assert_non_null(fp);
     uint64_t s = 2024;
     /* random pictures, with planted: full-hash copies, centre-only copies (a label spoils the

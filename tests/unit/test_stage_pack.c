@@ -74,10 +74,10 @@ static void scan_and_split(struct kiln_catalog *cat)
     bool note;
     assert_int_equal(kiln_split_parse_ratios("50:50", &sp, &note, &err), KILN_OK);
     sp.seed = 1;
-    sp.near_bits = -1;
+    sp.near = false;
     struct kiln_units units;
     struct kiln_split_report rep;
-    assert_int_equal(kiln_split_run(cat, &sp, &units, &rep, &err), KILN_OK);
+    assert_int_equal(kiln_split_run(cat, &sp, NULL, &units, &rep, &err), KILN_OK);
     kiln_units_free(&units);
 }
 

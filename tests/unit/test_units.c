@@ -1,5 +1,6 @@
 /* Unit tests for core/units: units are the connected components of "same group", "same file
- * bytes" and "same pixels" over ok items, checked against a naive re-computation. */
+ * bytes", "same pixels" and "same record" over ok items, checked against a naive
+ * re-computation; kiln_units_exact gives the same components. */
 #include <setjmp.h>
 #include <stdarg.h>
 #include <stddef.h>
@@ -50,6 +51,12 @@ static void build_catalog(struct kiln_catalog *cat, size_t n, uint32_t seed)
             memcpy(it.sha256, cat->items[i - 1].sha256, KILN_SHA256_LEN);
         if (i % 31 == 7)
             memcpy(it.pixel_sha256, cat->items[i - 2].pixel_sha256, KILN_SHA256_LEN);
+        /* kiln build's record digests on most items; every 17th equal to one three back */
+        it.has_record = i % 7 != 3 && it.status == KILN_ST_OK;
+        for (int k = 0; k < KILN_RECORD_DIGEST_LEN; k++)
+            it.record_digest[k] = (uint8_t)lcg(&seed);
+        if (i % 17 == 9 && cat->items[i - 3].has_record && it.has_record)
+            memcpy(it.record_digest, cat->items[i - 3].record_digest, KILN_RECORD_DIGEST_LEN);
         if (i % 10 == 0) {
             snprintf(group, sizeof group, "G%02zu", (i / 10) % 40);
             it.group = group;
@@ -68,6 +75,9 @@ static int related(const struct kiln_item *a, const struct kiln_item *b)
     if (a->group[0] && strcmp(a->group, b->group) == 0)
         return 1;
     if (memcmp(a->sha256, b->sha256, KILN_SHA256_LEN) == 0)
+        return 1;
+    if (a->has_record && b->has_record &&
+        memcmp(a->record_digest, b->record_digest, KILN_RECORD_DIGEST_LEN) == 0)
         return 1;
     return a->has_pixels && b->has_pixels &&
            memcmp(a->pixel_sha256, b->pixel_sha256, KILN_SHA256_LEN) == 0;
@@ -127,7 +137,16 @@ static void test_components_match_naive(void **state)
         ok += cat.items[i].status == KILN_ST_OK;
     assert_int_equal(total, ok);
     /* the construction does create merges of every kind */
-    assert_true(u.merged_groups > 0 && u.merged_bytes > 0 && u.merged_pixels > 0);
+    assert_true(u.merged_groups > 0 && u.merged_bytes > 0 && u.merged_pixels > 0 &&
+                u.merged_records > 0);
+    /* kiln_units_exact: the same components, named by their smallest member; rows that are
+     * not ok stand alone */
+    uint32_t *exact = malloc(cat.n * sizeof *exact);
+    assert_non_null(exact);
+    assert_int_equal(kiln_units_exact(&cat, exact, &err), KILN_OK);
+    for (size_t i = 0; i < cat.n; i++)
+        assert_int_equal(exact[i], comp[i] == SIZE_MAX ? i : comp[i]);
+    free(exact);
     free(comp);
     kiln_units_free(&u);
     kiln_catalog_free(&cat);
