@@ -184,6 +184,10 @@ int kiln_catalog_csv_save(const char *path, const struct kiln_catalog *cat, stru
     if (rc) {
         const int e = errno; /* the stream's failure, kept by kiln_catalog_csv_write */
         kiln_outfile_abort(&of);
+        if (rc != KILN_EWRITE) { /* not a failed write (fingerprints not loaded, ...) */
+            kiln_err_prefix(err, "%s", path);
+            return rc;
+        }
         return kiln_err_sys(err, KILN_EWRITE, e, "cannot write %s", path);
     }
     return kiln_outfile_commit(&of, err);
