@@ -156,85 +156,83 @@ static int rerun_split(struct kiln_catalog *cat, const struct kiln_split_record 
     return rc;
 }
 
-int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn fn, void *ctx,
-                         struct kiln_reproduce_report *rep, struct kiln_err *err)
+/* What one reproduce holds between its steps. */
+struct repro_run {
+    const struct kiln_reproduce_opts *o;
+    kiln_reproduce_fn fn;
+    void *ctx;
+    struct kiln_reproduce_report *rep;
+    json_t *m;   /* the recorded manifest */
+    char *cpath; /* its catalog.csv */
+    struct kiln_catalog cat;
+    struct kiln_index idx;
+    struct kiln_scan_record *scan;
+    struct kiln_split_record *split;
+    struct kiln_nearlinks near;
+    struct kiln_pack_opts po;
+};
+
+/* The recorded catalogue (checked against the manifest's SHA-256), recipe and run records. */
+static int load_recorded(struct repro_run *r, struct kiln_err *err)
 {
-    memset(rep, 0, sizeof *rep);
-    json_t *m = NULL;
-    int rc = kiln_manifest_load(o->manifest, &m, err);
+    const struct kiln_reproduce_opts *o = r->o;
+    int rc = kiln_manifest_load(o->manifest, &r->m, err);
     if (rc)
         return rc;
-    char *cpath = sibling(o->manifest, KILN_FILE_CATALOG);
-    struct kiln_catalog cat;
-    kiln_catalog_init(&cat);
-    struct kiln_index idx;
-    memset(&idx, 0, sizeof idx);
-    kiln_arena_init(&idx.strings);
-    struct kiln_scan_record *scan = NULL;
-    struct kiln_split_record *split = NULL;
-    uint32_t *moved = NULL; /* items found elsewhere than recorded */
-    struct kiln_nearlinks near;
-    memset(&near, 0, sizeof near);
-    bool near_on = true;
-    struct kiln_pack_opts po;
-    memset(&po, 0, sizeof po);
-    const char *want = recorded_sha(m, KILN_FILE_CATALOG);
+    r->cpath = sibling(o->manifest, KILN_FILE_CATALOG);
+    const char *want = recorded_sha(r->m, KILN_FILE_CATALOG);
     char hex[KILN_SHA256_HEX];
-    if (!cpath)
+    if (!r->cpath)
         rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
     else if (!want)
         rc = kiln_err_set(err, KILN_EINVAL, "%s lists no catalog.csv output", o->manifest);
     if (!rc)
-        rc = file_hex(cpath, hex, err);
+        rc = file_hex(r->cpath, hex, err);
     if (!rc && strcmp(hex, want) != 0)
         rc = kiln_err_set(err, KILN_EMISMATCH,
-                          "%s does not match the SHA-256 in %s; the record is damaged", cpath,
+                          "%s does not match the SHA-256 in %s; the record is damaged", r->cpath,
                           o->manifest);
     if (!rc)
-        rc = kiln_recipe_from_json(json_object_get(m, "recipe"), &po.recipe, err);
-    if (!rc && (rc = kiln_manifest_read_records(m, &scan, &split, err)) != 0)
+        rc = kiln_recipe_from_json(json_object_get(r->m, "recipe"), &r->po.recipe, err);
+    if (!rc && (rc = kiln_manifest_read_records(r->m, &r->scan, &r->split, err)) != 0)
         kiln_err_prefix(err, "%s", o->manifest);
     bool has_split;
     if (!rc)
-        rc = kiln_near_attach_store(&cat, o->outdir, err);
+        rc = kiln_near_attach_store(&r->cat, o->outdir, err);
     if (!rc)
-        rc = kiln_catalog_csv_load(cpath, &cat, &has_split, err);
+        rc = kiln_catalog_csv_load(r->cpath, &r->cat, &has_split, err);
     if (!rc)
-        rc = kiln_catalog_index_classes(&cat, err);
-    if (rc)
-        goto out;
-    compare_libraries(m, fn, ctx, rep);
-    kiln_arena_free(&idx.strings);
-    rc = kiln_index_build(o->sources, o->nsources, false, kiln_index_max_bytes(&cat), &idx,
-                          err);
-    if (!rc && !(moved = kiln_alloc_array(cat.n ? cat.n : 1, sizeof *moved)))
-        rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
-    if (rc)
-        goto out;
-    /* Each item is read from its recorded place when that still holds its content (exact
-     * duplicates elsewhere do not make it "moved"); else from the first copy found. */
+        rc = kiln_catalog_index_classes(&r->cat, err);
+    return rc;
+}
+
+/* Finds every recorded item in the sources by content: from its recorded place when that
+ * still holds its content (exact duplicates elsewhere do not make it "moved"), else from the
+ * first copy found. moved receives the items found elsewhere. */
+static int locate_items(struct repro_run *r, uint32_t *moved, struct kiln_err *err)
+{
+    struct kiln_reproduce_report *rep = r->rep;
     struct kiln_names names;
-    kiln_names_init(&names, po.recipe.hash_paths, o->path_key, o->path_key_len);
+    kiln_names_init(&names, r->po.recipe.hash_paths, r->o->path_key, r->o->path_key_len);
     size_t in_place = 0;
-    for (size_t i = 0; i < cat.n; i++) {
-        struct kiln_item *it = &cat.items[i];
+    for (size_t i = 0; i < r->cat.n; i++) {
+        struct kiln_item *it = &r->cat.items[i];
         if (it->split == KILN_SPLIT_NONE)
             continue;
         rep->items++;
         const struct kiln_index_entry *hit;
         bool at_place;
-        rc = kiln_index_locate(&idx, it, &names, &hit, &at_place, err);
+        int rc = kiln_index_locate(&r->idx, it, &names, &hit, &at_place, err);
         if (rc)
-            goto out;
-        char rel[4096];
-        kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
+            return rc;
         if (!hit) {
-            rep->missing++;
-            char sha[KILN_SHA256_HEX];
+            char rel[4096], sha[KILN_SHA256_HEX];
+            kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
             kiln_sha256_hex(it->sha256, sha);
-            note(fn, ctx, KILN_REPRO_MISSING, "%s (%s, SHA-256 %s) is in no source", rel,
+            rep->missing++;
+            note(r->fn, r->ctx, KILN_REPRO_MISSING, "%s (%s, SHA-256 %s) is in no source", rel,
                  kiln_split_name(it->split), sha);
-            if (o->allow_missing)
+            if (r->o->allow_missing)
                 it->split = KILN_SPLIT_NONE;
             continue;
         }
@@ -248,72 +246,106 @@ int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn 
     }
     /* Under the public key nothing in place, names hashed and no key given: the names were
      * most likely hashed with a secret key, and "moved" would be a guess. */
-    rep->places_unknown = po.recipe.hash_paths && !o->path_key && rep->moved && !in_place;
+    rep->places_unknown = r->po.recipe.hash_paths && !r->o->path_key && rep->moved && !in_place;
     if (rep->places_unknown)
         rep->moved = 0;
     for (size_t k = 0; k < rep->moved; k++) {
-        const struct kiln_item *it = &cat.items[moved[k]];
+        const struct kiln_item *it = &r->cat.items[moved[k]];
         char rel[4096], now[4096];
         kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
         kiln_catalog_relname(it->from_path, it->from_member, now, sizeof now);
-        note(fn, ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from_source, now);
+        note(r->fn, r->ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from_source, now);
     }
-    if (rep->missing && !o->allow_missing) {
-        rc = kiln_err_set(err, KILN_EMISMATCH,
-                          "%zu of %zu recorded items are in no source; nothing rebuilt "
-                          "(--allow-missing rebuilds without them)",
-                          rep->missing, rep->items);
-        goto out;
-    }
+    if (rep->missing && !r->o->allow_missing)
+        return kiln_err_set(err, KILN_EMISMATCH,
+                            "%zu of %zu recorded items are in no source; nothing rebuilt "
+                            "(--allow-missing rebuilds without them)",
+                            rep->missing, rep->items);
+    return KILN_OK;
+}
+
+/* Reruns the recorded split where it can and packs again into o->outdir. */
+static int rebuild(struct repro_run *r, struct kiln_err *err)
+{
+    const struct kiln_reproduce_opts *o = r->o;
+    struct kiln_pack_opts *po = &r->po;
     /* Rerun the recorded split, unless it depended on an earlier output (--keep) or items are
-     * missing (which would reshuffle exact-mode dealing): then the recorded splits stand. */
-    /* Hashed group keys (--hash-paths) no longer give the unit ids either. */
-    bool near_rerun = false;
-    if (split && !split->keep && !rep->missing && !po.recipe.hash_paths) {
-        rc = rerun_split(&cat, split, o->jobs, &near, fn, ctx, rep, err);
+     * missing (which would reshuffle exact-mode dealing): then the recorded splits stand.
+     * Hashed group keys (--hash-paths) no longer give the unit ids either. */
+    bool near_rerun = false, near_on = true;
+    if (r->split && !r->split->keep && !r->rep->missing && !po->recipe.hash_paths) {
+        int rc = rerun_split(&r->cat, r->split, o->jobs, &r->near, r->fn, r->ctx, r->rep, err);
         if (rc)
-            goto out;
+            return rc;
         near_rerun = true;
     }
     /* The audit checks near duplicates with the split's settings (the rerun's links when there
      * was one). Identical records in two splits were allowed if the recorded output has them:
      * its manifest's audit lists them, and the comparison below shows any difference. */
-    kiln_near_params_from_record(split, &near_on, &po.near_params);
-    po.near = near_rerun && near_on ? &near : NULL;
-    po.allow_identical = true;
-    po.outdir = o->outdir;
-    po.jobs = o->jobs;
-    po.scan = scan;
-    po.split = split;
-    po.progress = o->progress;
-    po.progress_ctx = o->progress_ctx;
+    kiln_near_params_from_record(r->split, &near_on, &po->near_params);
+    po->near = near_rerun && near_on ? &r->near : NULL;
+    po->allow_identical = true;
+    po->outdir = o->outdir;
+    po->jobs = o->jobs;
+    po->scan = r->scan;
+    po->split = r->split;
+    po->progress = o->progress;
+    po->progress_ctx = o->progress_ctx;
     struct kiln_pack_report prep;
-    rc = kiln_stage_pack(&cat, &po, &prep, err);
-    rep->debris = prep.debris;
-    if (rc)
-        goto out;
-    /* Compare every recorded output, and the manifest itself. */
-    rep->all_identical = true;
-    size_t i;
-    json_t *ob;
-    json_array_foreach(json_object_get(m, "outputs"), i, ob)
-    {
-        const char *name = kiln_json_str(ob, "name"), *sha = kiln_json_str(ob, "sha256");
-        if (name && sha && rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
-            compare_output(o->outdir, name, sha, NULL, rep);
+    int rc = kiln_stage_pack(&r->cat, po, &prep, err);
+    r->rep->debris = prep.debris;
+    return rc;
+}
+
+int kiln_stage_reproduce(const struct kiln_reproduce_opts *o, kiln_reproduce_fn fn, void *ctx,
+                         struct kiln_reproduce_report *rep, struct kiln_err *err)
+{
+    memset(rep, 0, sizeof *rep);
+    struct repro_run r;
+    memset(&r, 0, sizeof r);
+    r.o = o;
+    r.fn = fn;
+    r.ctx = ctx;
+    r.rep = rep;
+    kiln_catalog_init(&r.cat);
+    kiln_arena_init(&r.idx.strings);
+    uint32_t *moved = NULL; /* items found elsewhere than recorded */
+    int rc = load_recorded(&r, err);
+    if (!rc) {
+        compare_libraries(r.m, fn, ctx, rep);
+        kiln_arena_free(&r.idx.strings);
+        rc = kiln_index_build(o->sources, o->nsources, false, kiln_index_max_bytes(&r.cat),
+                              &r.idx, err);
     }
-    if (rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
-        compare_output(o->outdir, KILN_FILE_MANIFEST, NULL, o->manifest, rep);
-out:
+    if (!rc && !(moved = kiln_alloc_array(r.cat.n ? r.cat.n : 1, sizeof *moved)))
+        rc = kiln_err_set(err, KILN_ENOMEM, "out of memory");
+    if (!rc)
+        rc = locate_items(&r, moved, err);
+    if (!rc)
+        rc = rebuild(&r, err);
+    if (!rc) {
+        /* Compare every recorded output, and the manifest itself. */
+        rep->all_identical = true;
+        size_t i;
+        json_t *ob;
+        json_array_foreach(json_object_get(r.m, "outputs"), i, ob)
+        {
+            const char *name = kiln_json_str(ob, "name"), *sha = kiln_json_str(ob, "sha256");
+            if (name && sha && rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
+                compare_output(o->outdir, name, sha, NULL, rep);
+        }
+        if (rep->noutputs < KILN_REPRO_MAX_OUTPUTS)
+            compare_output(o->outdir, KILN_FILE_MANIFEST, NULL, o->manifest, rep);
+    }
     free(moved);
-    kiln_scan_record_free(scan);
-    kiln_split_record_free(split);
-    free(scan);
-    free(split);
-    kiln_nearlinks_free(&near);
-    kiln_catalog_free(&cat); /* before the index: items point into its strings */
-    kiln_index_free(&idx);
-    free(cpath);
-    json_decref(m);
+    kiln_scan_record_free(r.scan);
+    kiln_split_record_free(r.split);
+    free(r.scan);
+    free(r.split);
+    kiln_nearlinks_free(&r.near);
+    kiln_catalog_free(&r.cat); /* before the index: items point into its strings */
+    kiln_index_free(&r.idx);
+    free(r.cpath);
+    json_decref(r.m);
     return rc;
 }

@@ -262,81 +262,70 @@ static int run_failure(struct worker *w, const struct job *j, int code, const ch
 
 /* Decodes once and fills the header, pixel digest and difference hash; on failure sets the
  * item's status and reason. Returns non-zero only for failures of the run (memory). */
-static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, char *reason,
-                   size_t rlen)
+/* A file no decoder takes: unsupported when its format is known, else not an image. */
+static void no_decoder(const struct job *j, struct kiln_item *it, char *reason, size_t rlen)
+{
+    const char *other = kiln_format_sniff_other(j->data, j->size);
+    if (other) {
+        it->status = KILN_ST_UNSUPPORTED;
+        snprintf(reason, rlen, "%s files are not supported", other);
+        return;
+    }
+    it->status = KILN_ST_NOT_IMAGE;
+    char hex[3 * 8 + 1] = "";
+    size_t used = 0;
+    for (size_t i = 0; i < j->size && i < 8; i++)
+        used += (size_t)snprintf(hex + used, sizeof hex - used, "%s%02x", i ? " " : "",
+                                 j->data[i]);
+    snprintf(reason, rlen, "content is not a known image format (starts %s)", hex);
+}
+
+/* The header's facts into the row; false (with the row's status and reason) when the picture
+ * is empty or beyond the limits. */
+static bool header_usable(struct worker *w, const struct kiln_image_info *info,
+                          struct kiln_item *it, char *reason, size_t rlen)
+{
+    const struct kiln_decode_limits *lim = &w->run->o->limits;
+    snprintf(w->notes, sizeof w->notes, "%s", info->note);
+    it->notes = w->notes;
+    it->stored_depth = (uint8_t)info->stored_depth;
+    it->orientation = (uint8_t)info->orientation;
+    it->pages = (uint16_t)(info->pages > UINT16_MAX ? UINT16_MAX : info->pages);
+    it->channels = (uint8_t)info->channels;
+    it->depth = (uint8_t)info->depth;
+    const int swap = info->orientation >= 5;
+    it->width = swap ? info->height : info->width;
+    it->height = swap ? info->width : info->height;
+    if (info->width == 0 || info->height == 0) {
+        it->status = KILN_ST_CORRUPT;
+        snprintf(reason, rlen, "image has zero width or height (%ux%u)", info->width,
+                 info->height);
+        return false;
+    }
+    if ((uint64_t)info->width * info->height > lim->max_pixels || info->width > lim->max_side ||
+        info->height > lim->max_side) {
+        it->status = KILN_ST_TOO_LARGE;
+        snprintf(reason, rlen, "%ux%u exceeds the limits (%llu pixels, %u per side)",
+                 info->width, info->height, (unsigned long long)lim->max_pixels, lim->max_side);
+        return false;
+    }
+    return true;
+}
+
+/* From the one decode in w->img: the pixel digest and the near-duplicate fingerprint of the
+ * oriented picture, and in kiln build the prepared record, stored in the pool and hashed. */
+static int digest_decoded(struct worker *w, const struct job *j,
+                          const struct kiln_image_info *info, uint32_t denom,
+                          struct kiln_item *it)
 {
     const struct kiln_scan_opts *o = w->run->o;
+    const struct kiln_recipe *recipe = o->pool ? o->pool->recipe : NULL;
     struct kiln_err e;
     kiln_err_clear(&e);
-    const struct kiln_decoder *dec = kiln_decoder_find(j->data, j->size);
-    if (!dec) {
-        const char *other = kiln_format_sniff_other(j->data, j->size);
-        if (other) {
-            it->status = KILN_ST_UNSUPPORTED;
-            snprintf(reason, rlen, "%s files are not supported", other);
-        } else {
-            it->status = KILN_ST_NOT_IMAGE;
-            char hex[3 * 8 + 1] = "";
-            size_t used = 0;
-            for (size_t i = 0; i < j->size && i < 8; i++)
-                used += (size_t)snprintf(hex + used, sizeof hex - used, "%s%02x", i ? " " : "",
-                                         j->data[i]);
-            snprintf(reason, rlen, "content is not a known image format (starts %s)", hex);
-        }
-        return KILN_OK;
-    }
-    it->format = dec->name;
-    struct kiln_image_info info;
-    int rc = dec->read_info(j->data, j->size, &o->limits, &info, &e);
-    if (rc == KILN_ENOMEM)
-        return run_failure(w, j, rc, e.msg);
-    if (rc) {
-        it->status = (uint8_t)status_for_code(rc);
-        snprintf(reason, rlen, "%s", e.msg);
-        return KILN_OK;
-    }
-    snprintf(w->notes, sizeof w->notes, "%s", info.note);
-    it->notes = w->notes;
-    it->stored_depth = (uint8_t)info.stored_depth;
-    it->orientation = (uint8_t)info.orientation;
-    it->pages = (uint16_t)(info.pages > UINT16_MAX ? UINT16_MAX : info.pages);
-    it->channels = (uint8_t)info.channels;
-    it->depth = (uint8_t)info.depth;
-    const int swap = info.orientation >= 5;
-    it->width = swap ? info.height : info.width;
-    it->height = swap ? info.width : info.height;
-    if (info.width == 0 || info.height == 0) {
-        it->status = KILN_ST_CORRUPT;
-        snprintf(reason, rlen, "image has zero width or height (%ux%u)", info.width, info.height);
-        return KILN_OK;
-    }
-    if ((uint64_t)info.width * info.height > o->limits.max_pixels ||
-        info.width > o->limits.max_side || info.height > o->limits.max_side) {
-        it->status = KILN_ST_TOO_LARGE;
-        snprintf(reason, rlen, "%ux%u exceeds the limits (%llu pixels, %u per side)", info.width,
-                 info.height, (unsigned long long)o->limits.max_pixels, o->limits.max_side);
-        return KILN_OK;
-    }
-    /* kiln build decodes once, at the scale pack uses; the digests then describe that decode
-     * (pixel_scale). A plain scan decodes at full size. */
-    const struct kiln_recipe *recipe = o->pool ? o->pool->recipe : NULL;
-    uint32_t denom = recipe ? kiln_prep_choose_denom(recipe, info.width, info.height,
-                                                     info.orientation, info.max_scale_denom)
-                            : 1;
-    it->pixel_scale = (uint8_t)denom;
-    rc = kiln_decoded_shape(&info, denom, &w->img, &e);
-    if (!rc)
-        rc = dec->decode(j->data, j->size, &info, denom, &w->img, &e);
-    if (rc == KILN_ENOMEM || rc == KILN_EINTERNAL)
-        return run_failure(w, j, rc, e.msg);
-    if (rc) {
-        it->status = (uint8_t)status_for_code(rc);
-        snprintf(reason, rlen, "%s", e.msg);
-        return KILN_OK;
-    }
+    int rc;
     const struct kiln_image *shown = &w->img;
-    if (info.orientation != 1) {
-        rc = kiln_orient(&w->img, info.orientation, &w->oriented, &e);
+    if (info->orientation != 1) {
+        rc = kiln_orient(&w->img, info->orientation, &w->oriented, &e);
         if (rc)
             return run_failure(w, j, rc, e.msg);
         shown = &w->oriented;
@@ -355,29 +344,72 @@ static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, 
         rc = kiln_fpstore_put(w->run->cat->fps, &fp, &it->fp_slot, &e);
     if (rc)
         return run_failure(w, j, rc, e.msg);
-    if (recipe) {
-        /* The oriented image gives the same record as the stored one and is already at hand;
-         * src still describes the stored picture, which fixes the fit and the reduced grid. */
-        const bool use_oriented = recipe->orient && info.orientation != 1;
-        const struct kiln_prep_source src = {info.width, info.height, denom, info.orientation,
-                                             use_oriented};
-        rc = kiln_prep_record(&w->prep, recipe, use_oriented ? &w->oriented : &w->img, &src,
-                              w->record, &e);
-        if (rc)
-            return run_failure(w, j, rc, e.msg);
-        /* A full disk is a failure of the output, not of the file at hand: not named after it. */
-        rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
-        if (rc)
-            return kiln_err_set(&w->err, rc, "%s", e.msg);
-        /* Identical records join one unit before the split (docs/split.md). */
-        uint8_t d[KILN_SHA256_LEN];
-        rc = kiln_sha256_buf(w->record, o->pool->record_bytes, d, &e);
-        if (rc)
-            return kiln_err_set(&w->err, rc, "%s", e.msg);
-        memcpy(it->record_digest, d, KILN_RECORD_DIGEST_LEN);
-        it->has_record = 1;
-    }
+    if (!recipe)
+        return KILN_OK;
+    /* The oriented image gives the same record as the stored one and is already at hand;
+     * src still describes the stored picture, which fixes the fit and the reduced grid. */
+    const bool use_oriented = recipe->orient && info->orientation != 1;
+    const struct kiln_prep_source src = {info->width, info->height, denom, info->orientation,
+                                         use_oriented};
+    rc = kiln_prep_record(&w->prep, recipe, use_oriented ? &w->oriented : &w->img, &src,
+                          w->record, &e);
+    if (rc)
+        return run_failure(w, j, rc, e.msg);
+    /* A full disk is a failure of the output, not of the file at hand: not named after it. */
+    rc = kiln_record_pool_put(o->pool, w->record, &it->pool_slot, &e);
+    if (rc)
+        return kiln_err_set(&w->err, rc, "%s", e.msg);
+    /* Identical records join one unit before the split (docs/split.md). */
+    uint8_t d[KILN_SHA256_LEN];
+    rc = kiln_sha256_buf(w->record, o->pool->record_bytes, d, &e);
+    if (rc)
+        return kiln_err_set(&w->err, rc, "%s", e.msg);
+    memcpy(it->record_digest, d, KILN_RECORD_DIGEST_LEN);
+    it->has_record = 1;
     return KILN_OK;
+}
+
+static int analyse(struct worker *w, const struct job *j, struct kiln_item *it, char *reason,
+                   size_t rlen)
+{
+    const struct kiln_scan_opts *o = w->run->o;
+    struct kiln_err e;
+    kiln_err_clear(&e);
+    const struct kiln_decoder *dec = kiln_decoder_find(j->data, j->size);
+    if (!dec) {
+        no_decoder(j, it, reason, rlen);
+        return KILN_OK;
+    }
+    it->format = dec->name;
+    struct kiln_image_info info;
+    int rc = dec->read_info(j->data, j->size, &o->limits, &info, &e);
+    if (rc == KILN_ENOMEM)
+        return run_failure(w, j, rc, e.msg);
+    if (rc) {
+        it->status = (uint8_t)status_for_code(rc);
+        snprintf(reason, rlen, "%s", e.msg);
+        return KILN_OK;
+    }
+    if (!header_usable(w, &info, it, reason, rlen))
+        return KILN_OK;
+    /* kiln build decodes once, at the scale pack uses; the digests then describe that decode
+     * (pixel_scale). A plain scan decodes at full size. */
+    const struct kiln_recipe *recipe = o->pool ? o->pool->recipe : NULL;
+    uint32_t denom = recipe ? kiln_prep_choose_denom(recipe, info.width, info.height,
+                                                     info.orientation, info.max_scale_denom)
+                            : 1;
+    it->pixel_scale = (uint8_t)denom;
+    rc = kiln_decoded_shape(&info, denom, &w->img, &e);
+    if (!rc)
+        rc = dec->decode(j->data, j->size, &info, denom, &w->img, &e);
+    if (rc == KILN_ENOMEM || rc == KILN_EINTERNAL)
+        return run_failure(w, j, rc, e.msg);
+    if (rc) {
+        it->status = (uint8_t)status_for_code(rc);
+        snprintf(reason, rlen, "%s", e.msg);
+        return KILN_OK;
+    }
+    return digest_decoded(w, j, &info, denom, it);
 }
 
 static void first_component(const char *s, char *buf, size_t len)
@@ -399,6 +431,45 @@ static void folder_label(const char *path, const char *member, char *buf, size_t
         first_component(member, buf, len);
     else
         first_component(path, buf, len);
+}
+
+/* The longest label or group a row keeps (bytes with the terminator). */
+#define NAME_FIELD 1024
+
+/* The label rule and the group rule applied to a row's normalised names (label and group hold
+ * NAME_FIELD bytes each). Returns the labels-CSV row used, if any; *matched: the group rule
+ * matched. */
+static struct label_row *label_and_group(struct scan_run *run, const char *path,
+                                         const char *member, char *rel, char *label,
+                                         char *group, bool *matched)
+{
+    const struct kiln_scan_opts *o = run->o;
+    struct label_row *lr = NULL;
+    if (o->labels == KILN_LABELS_FOLDER) {
+        folder_label(path, member, label, NAME_FIELD);
+    } else if (o->labels == KILN_LABELS_CSV) {
+        struct label_row key = {.path = rel};
+        lr = run->labels.n ? bsearch(&key, run->labels.rows, run->labels.n, sizeof key,
+                                     cmp_label_row)
+                           : NULL;
+        if (lr) {
+            snprintf(label, NAME_FIELD, "%s", lr->label);
+            snprintf(group, NAME_FIELD, "%s", lr->group);
+        }
+    }
+    *matched = false;
+    if (run->have_re) {
+        regmatch_t m[2];
+        if (regexec(&run->re, rel, 2, m, 0) == 0 && m[1].rm_so >= 0) {
+            size_t n = (size_t)(m[1].rm_eo - m[1].rm_so);
+            if (n >= NAME_FIELD)
+                n = NAME_FIELD - 1;
+            memcpy(group, rel + m[1].rm_so, n);
+            group[n] = '\0';
+            *matched = n > 0;
+        }
+    }
+    return lr;
 }
 
 static int process(struct worker *w, struct job *j)
@@ -438,35 +509,12 @@ static int process(struct worker *w, struct job *j)
     }
     /* The rules see normalised names ("./class/x.png" in a tarball made with `tar -C dir .`
      * is "class/x.png"); the row keeps the raw ones, which is how pack finds the member. */
-    char path[4096], member[4096], rel[4096], label[1024] = "", group[1024] = "";
+    char path[4096], member[4096], rel[4096], label[NAME_FIELD] = "", group[NAME_FIELD] = "";
     kiln_name_normalise(j->path, path, sizeof path);
     kiln_name_normalise(j->member, member, sizeof member);
     kiln_catalog_relname(path, member, rel, sizeof rel);
-    struct label_row *lr = NULL;
-    if (o->labels == KILN_LABELS_FOLDER) {
-        folder_label(path, member, label, sizeof label);
-    } else if (o->labels == KILN_LABELS_CSV) {
-        struct label_row key = {.path = rel};
-        lr = run->labels.n ? bsearch(&key, run->labels.rows, run->labels.n, sizeof key,
-                                     cmp_label_row)
-                           : NULL;
-        if (lr) {
-            snprintf(label, sizeof label, "%s", lr->label);
-            snprintf(group, sizeof group, "%s", lr->group);
-        }
-    }
-    bool matched = false;
-    if (run->have_re) {
-        regmatch_t m[2];
-        if (regexec(&run->re, rel, 2, m, 0) == 0 && m[1].rm_so >= 0) {
-            size_t n = (size_t)(m[1].rm_eo - m[1].rm_so);
-            if (n >= sizeof group)
-                n = sizeof group - 1;
-            memcpy(group, rel + m[1].rm_so, n);
-            group[n] = '\0';
-            matched = n > 0;
-        }
-    }
+    bool matched;
+    struct label_row *lr = label_and_group(run, path, member, rel, label, group, &matched);
     if (it.status == KILN_ST_OK && o->labels != KILN_LABELS_NONE && !label[0]) {
         it.status = KILN_ST_UNLABELLED;
         snprintf(reason, sizeof reason, "%s",
@@ -554,6 +602,48 @@ static int count_groups(const struct kiln_catalog *cat, struct kiln_scan_report 
     return KILN_OK;
 }
 
+/* --group-regex compiled into run->re; it must have a capture group. */
+static int compile_group_rule(struct scan_run *run, struct kiln_err *err)
+{
+    const char *rule = run->o->group_regex;
+    if (!rule)
+        return KILN_OK;
+    int e = regcomp(&run->re, rule, REG_EXTENDED);
+    if (e) {
+        char msg[200];
+        regerror(e, &run->re, msg, sizeof msg);
+        return kiln_err_set(err, KILN_EINVAL, "bad --group-regex '%s': %s", rule, msg);
+    }
+    if (run->re.re_nsub < 1) {
+        regfree(&run->re);
+        return kiln_err_set(err, KILN_EINVAL,
+                            "--group-regex '%s' needs a capture group, e.g. '^([^_]+)_'", rule);
+    }
+    run->have_re = true;
+    return KILN_OK;
+}
+
+/* After the last row: unused labels-CSV rows counted, rows in location order, classes indexed,
+ * statuses and groups counted. */
+static int finish_scan(struct scan_run *run, struct kiln_err *err)
+{
+    struct kiln_scan_report *rep = run->rep;
+    for (size_t i = 0; i < run->labels.n; i++)
+        if (!run->labels.rows[i].used) {
+            if (!rep->csv_rows_unused)
+                snprintf(rep->first_unused_csv_row, sizeof rep->first_unused_csv_row, "%s",
+                         run->labels.rows[i].path);
+            rep->csv_rows_unused++;
+        }
+    rep->csv_rows = run->labels.n;
+    kiln_catalog_sort(run->cat);
+    int rc = kiln_catalog_index_classes(run->cat, err);
+    kiln_catalog_count_status(run->cat, rep->status);
+    if (!rc)
+        rc = count_groups(run->cat, rep, err);
+    return rc;
+}
+
 int kiln_stage_scan(const char *const *sources, size_t nsources, const struct kiln_scan_opts *o,
                     struct kiln_catalog *cat, struct kiln_scan_report *rep, struct kiln_err *err)
 {
@@ -563,23 +653,9 @@ int kiln_stage_scan(const char *const *sources, size_t nsources, const struct ki
     run.o = o;
     run.cat = cat;
     run.rep = rep;
-    int rc;
-    if (o->group_regex) {
-        int e = regcomp(&run.re, o->group_regex, REG_EXTENDED);
-        if (e) {
-            char msg[200];
-            regerror(e, &run.re, msg, sizeof msg);
-            return kiln_err_set(err, KILN_EINVAL, "bad --group-regex '%s': %s", o->group_regex,
-                                msg);
-        }
-        if (run.re.re_nsub < 1) {
-            regfree(&run.re);
-            return kiln_err_set(err, KILN_EINVAL,
-                                "--group-regex '%s' needs a capture group, e.g. '^([^_]+)_'",
-                                o->group_regex);
-        }
-        run.have_re = true;
-    }
+    int rc = compile_group_rule(&run, err);
+    if (rc)
+        return rc;
     if (o->labels == KILN_LABELS_CSV) {
         rc = label_table_load(&run.labels, o->labels_csv, err);
         if (rc) {
@@ -639,21 +715,8 @@ out:
         rc = kiln_err_set(err, run.err.code ? run.err.code : KILN_EINTERNAL, "%s", run.err.msg);
     if (!rc && ra.rc)
         rc = kiln_err_set(err, ra.rc, "%s", ra.err.msg);
-    if (!rc) {
-        for (size_t i = 0; i < run.labels.n; i++)
-            if (!run.labels.rows[i].used) {
-                if (!rep->csv_rows_unused)
-                    snprintf(rep->first_unused_csv_row, sizeof rep->first_unused_csv_row, "%s",
-                             run.labels.rows[i].path);
-                rep->csv_rows_unused++;
-            }
-        rep->csv_rows = run.labels.n;
-        kiln_catalog_sort(cat);
-        rc = kiln_catalog_index_classes(cat, err);
-        kiln_catalog_count_status(cat, rep->status);
-        if (!rc)
-            rc = count_groups(cat, rep, err);
-    }
+    if (!rc)
+        rc = finish_scan(&run, err);
     pthread_mutex_destroy(&run.mu);
     kiln_queue_destroy(&run.q);
     label_table_free(&run.labels);

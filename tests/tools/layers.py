@@ -9,7 +9,10 @@ Usage: layers.py SOURCE_DIR BUILD_DIR
 2. Symbols: among the object files of kiln_core, kiln_formats, kiln_stages and kiln, no file
    uses a function or variable of a file that uses one of its own, directly or through others
    (a declaration written by hand instead of included is caught here too).
-Prints every cycle and every include against the layers, and exits 1 if there is one.
+3. Size: no function of the stages (core/pipeline/*.c) is longer than 80 lines, from the line
+   of its name to its closing brace (DEVELOPERS.md, "Conventions").
+Prints every cycle, every include against the layers and every long function, and exits 1 if
+there is one.
 """
 import glob
 import os
@@ -107,6 +110,27 @@ if len(objects) < 20:
     problems.append(f"only {len(objects)} object files found under {build}: is it built?")
 for comp in cycles(calls):
     problems.append("symbol cycle: " + " -> ".join(comp))
+
+# A function starts at a line that begins with its return type and holds its name and "(";
+# its body is the first line that is only "{" and ends at the first line that is only "}".
+FUNCTION_LINES = 80
+for path in sorted(glob.glob(os.path.join(src, "core/pipeline/*.c"))):
+    with open(path, encoding="utf-8") as f:
+        lines = f.read().split("\n")
+    start = None
+    for i, line in enumerate(lines):
+        if start is None and re.match(r"^[a-z].*\(", line) and not line.endswith(";"):
+            j = i
+            while j < len(lines) and lines[j] != "{" and not lines[j].endswith(";"):
+                j += 1
+            if j < len(lines) and lines[j] == "{":
+                start = (i, line)
+        elif line == "}" and start is not None:
+            if i - start[0] > FUNCTION_LINES:
+                name = re.search(r"(\w+)\(", start[1]).group(1)
+                problems.append(f"{os.path.relpath(path, src)}:{start[0] + 1}: {name} is "
+                                f"{i - start[0]} lines (at most {FUNCTION_LINES} in the stages)")
+            start = None
 
 for p in problems:
     print(p)
