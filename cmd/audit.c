@@ -178,6 +178,7 @@ static int audit(const struct cli_args *args, const struct audit_opts *ao)
         return rc == KILN_ECORRUPT || rc == KILN_EIO ? KILN_EXIT_INPUT : KILN_EXIT_FAILURE;
     }
     cli_print_audit(stdout, &a, &cat, args->quiet, SIZE_MAX, "");
+    cli_check_shortcuts(stdout, &cat, true, args->quiet);
     for (int s = 0; s < KILN_NSPLITS; s++)
         for (size_t k = 0; k < a.nclasses; k++)
             if (a.missing[(size_t)s * a.nclasses + k])

@@ -12,6 +12,7 @@
 #include "../core/err.h"
 #include "../core/recipe.h"
 #include "../core/pipeline/stage_scan.h"
+#include "../core/shortcut.h"
 #include "../core/split.h"
 
 /* Exit codes, pinned (docs/cli.md). */
@@ -204,6 +205,18 @@ void cli_print_audit(FILE *f, const struct kiln_audit *a, const struct kiln_cata
 /* The evidence of one near-duplicate link on one line (no newline): hash distances, the
  * correlations that decided, hue, orientation, crop alignment, searches, unit rule. */
 void cli_print_link_evidence(FILE *f, const struct kiln_nearlink *l);
+/* cmd/balance.c. The compact class x split table of the ok items that have a split (classes
+ * beyond 30 are counted, not listed), with the shares achieved and, when given, the ratios
+ * asked. */
+void cli_print_class_table(FILE *f, const struct kiln_catalog *cat, const char *asked,
+                           bool with_val);
+/* Runs the shortcut check (core/shortcut.h) over cat and prints what fires: as "SHORTCUT"
+ * findings on f (kiln audit, printed even when quiet) or as warnings on stderr (split, build);
+ * unless quiet, one line on f saying nothing fired and which attribute came closest. */
+struct kiln_shortcuts;
+void cli_print_shortcuts(FILE *f, const struct kiln_shortcuts *s, const struct kiln_catalog *cat,
+                         bool findings, bool quiet);
+void cli_check_shortcuts(FILE *f, const struct kiln_catalog *cat, bool findings, bool quiet);
 
 /* Says on stderr what preparing an output folder removed or left (interrupted runs' temporary
  * files); silent when there was nothing. */

@@ -109,6 +109,8 @@ static int pack(const char *input, struct kiln_pack_opts *o, bool quiet)
         exit_code = cli_exit_for(rc);
     } else {
         cli_print_pack_summary(stdout, o->outdir, &o->recipe, &rep, cli_elapsed(&prog), quiet);
+        if (!quiet)
+            cli_print_class_table(stdout, &cat, NULL, rep.present[KILN_SPLIT_VAL]);
     }
     kiln_scan_record_free(scan);
     kiln_split_record_free(split);

@@ -276,6 +276,7 @@ void cli_print_split_summary(FILE *f, const struct kiln_catalog *cat,
         if (p->keep_manifest)
             fprintf(f, "kept from %s: %zu items in %zu units\n", p->keep_manifest,
                     rep->kept_items, rep->kept_units);
+        cli_print_class_table(f, cat, ratios, p->nparts == 3);
     }
     fflush(f); /* the warnings below name units listed on f */
     if (p->near && near)
@@ -286,4 +287,5 @@ void cli_print_split_summary(FILE *f, const struct kiln_catalog *cat,
         if (p->ratio[s] == 0 && (s != KILN_SPLIT_VAL || p->nparts == 3))
             cli_warn("the %s split has a zero share", kiln_split_name(s));
     warn_missing_classes(cat, p, rep);
+    cli_check_shortcuts(f, cat, false, quiet);
 }

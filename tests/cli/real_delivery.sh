@@ -19,6 +19,10 @@ common=(--seed 2026 --size 64x48 --group-regex "$regex" --jobs 2)
 expect_exit 0 env LC_ALL=C "$KILN" build delivery -o full "${common[@]}" --no-dct-scale
 "$PYTHON" "$ref" check "$work" full --exact || fail "labels, groups, statuses or pixels (--no-dct-scale)"
 expect_exit 0 env LC_ALL=C.UTF-8 "$KILN" build delivery -o out "${common[@]}"
+# Mixed formats, sizes, depths and archives, none tied to a class: the shortcut check is quiet.
+! grep -q "shortcut" "$work/stderr" || fail "shortcut warning on a real delivery: $(cat "$work/stderr")"
+grep -q "^shortcut check: no attribute besides the picture predicts the label" "$work/stdout" ||
+    fail "shortcut check not reported: $(cat "$work/stdout")"
 # The copy of a grey micrograph filed under texture joins a unit across two classes: named.
 grep -q "^  group 'S14' (5 items" "$work/stderr" || fail "mixed-label unit not named: $(cat "$work/stderr")"
 grep -q "^1 multi-page file: only the first page" "$work/stdout" || fail "multi-page TIFF not reported"
