@@ -91,7 +91,7 @@ int kiln_stage_preview(const char *kten, const char *png, size_t per_class,
     if (W > 65535 || H > 65535 || !kiln_mul3_size((size_t)W, (size_t)H, 3, &cbytes) ||
         !(canvas = malloc(cbytes))) {
         rc = kiln_err_set(err, KILN_ENOMEM, "the contact sheet would be %llux%llu pixels: use a "
-                          "smaller --per-class", (unsigned long long)W, (unsigned long long)H);
+                          "smaller --sample", (unsigned long long)W, (unsigned long long)H);
         if (rep->labelled)
             kiln_font_close(&font);
         goto done;
