@@ -5,20 +5,52 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "../core/pipeline/stage_preview.h"
 #include "../formats/files/kten.h"
 #include "../formats/files/manifest.h"
 #include "cmd.h"
 
+struct inspect_opts {
+    bool as_json;
+    const char *preview; /* --preview OUT.png, or NULL */
+    size_t sample;       /* records per class on the sheet */
+};
+
 static int set_json(struct cli_args *a, const struct cli_opt *o, const char *v)
 {
     (void)o, (void)v;
-    *(bool *)a->own = true;
+    ((struct inspect_opts *)a->own)->as_json = true;
+    return 0;
+}
+
+static int set_preview(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    (void)o;
+    ((struct inspect_opts *)a->own)->preview = v;
+    return 0;
+}
+
+static int set_sample(struct cli_args *a, const struct cli_opt *o, const char *v)
+{
+    char *end;
+    const long n = strtol(v, &end, 10);
+    if (!*v || *end || n < 1 || n > KILN_PREVIEW_MAX_SAMPLE)
+        return cli_bad_value(o, v, "use 1 to 64 records per class");
+    ((struct inspect_opts *)a->own)->sample = (size_t)n;
     return 0;
 }
 
 static const struct cli_opt opts[] = {
     CLI_HEADING("options:"),
     {"json", 0, CLI_SWITCH, NULL, "print the metadata block as JSON instead", set_json},
+    {"preview", 0, CLI_VALUE, "OUT.png",
+     "write a contact sheet: records of each class, in class\n"
+     "order, as the network sees them (f32 de-normalised)",
+     set_preview},
+    {"sample", 0, CLI_VALUE, "N",
+     "records per class on the sheet (default 8, 1 to 64),\n"
+     "spread evenly over the file's record order",
+     set_sample},
     CLI_OPT_QUIET,
     CLI_OPT_HELP,
     CLI_OPT_END,
@@ -31,7 +63,9 @@ const struct cli_command cli_inspect = {
     .summary = "show the header, arrays and statistics of a .kten file",
     .usage = "inspect FILE.kten [options]",
     .about = "Prints the header, the array table (name, type, shape, offset, length, SHA-256),\n"
-             "the class map and the statistics stored in the metadata block.\n",
+             "the class map and the statistics stored in the metadata block. With --preview,\n"
+             "also writes a contact sheet (PNG): a row per class, in class order, with the\n"
+             "class name drawn above it, then a row of unlabelled records.\n",
     .opts = opts,
     .min_args = 1,
     .max_args = 1,
@@ -94,9 +128,36 @@ static void print_stats(const json_t *st, const char *title)
     }
 }
 
-/* Everything after option parsing; returns the exit status. */
-static int inspect(const char *path, bool as_json, bool quiet)
+static int write_preview(const char *kten, const char *png, size_t per_class, bool quiet)
 {
+    struct kiln_preview_report rep;
+    struct kiln_err err;
+    int rc = kiln_stage_preview(kten, png, per_class, &rep, &err);
+    if (rc) {
+        cli_error("%s", err.msg);
+        return rc == KILN_EIO || rc == KILN_ENOMEM ? KILN_EXIT_FAILURE : cli_exit_for_input(rc);
+    }
+    if (!rep.labelled)
+        cli_warn("class names are not drawn on %s: %s; the rows are in class order", png, rep.font);
+    if (!quiet)
+        printf("contact sheet: %s, %ux%u pixels, %zu %s of %zu %s (tiles %ux%u%s)%s%s\n", png,
+               rep.width, rep.height, rep.tiles, rep.tiles == 1 ? "record" : "records", rep.rows,
+               rep.rows == 1 ? "row" : "rows", rep.tile_w, rep.tile_h,
+               rep.shrink > 1 ? ", records shrunk" : "", rep.labelled ? ", names drawn with " : "",
+               rep.labelled ? rep.font : "");
+    return KILN_EXIT_OK;
+}
+
+/* Everything after option parsing; returns the exit status. */
+static int inspect(const char *path, const struct inspect_opts *o, bool quiet)
+{
+    const bool as_json = o->as_json;
+    /* An output that cannot be written is refused before any work (docs/cli.md). */
+    if (o->preview) {
+        const int code = cli_check_output_file(o->preview);
+        if (code)
+            return code;
+    }
     struct kiln_kten_info info;
     struct kiln_err err;
     int rc = kiln_kten_open(path, &info, &err);
@@ -159,16 +220,16 @@ static int inspect(const char *path, bool as_json, bool quiet)
     }
     json_decref(meta);
     kiln_kten_info_free(&info);
-    return KILN_EXIT_OK;
+    return o->preview ? write_preview(path, o->preview, o->sample, quiet) : KILN_EXIT_OK;
 }
 
 static int cmd_inspect(int argc, char **argv)
 {
-    bool as_json = false;
-    struct cli_args a = {.own = &as_json};
+    struct inspect_opts o = {.sample = KILN_PREVIEW_SAMPLE};
+    struct cli_args a = {.own = &o};
     int code = cli_parse(&cli_inspect, argc, argv, &a);
     if (code == CLI_GO)
-        code = inspect(a.argv[0], as_json, a.quiet);
+        code = inspect(a.argv[0], &o, a.quiet);
     cli_args_free(&a);
     return code;
 }

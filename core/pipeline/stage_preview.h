@@ -14,6 +14,8 @@
 #define KILN_PREVIEW_GAP 4      /* between tiles and rows */
 #define KILN_PREVIEW_FONT_PX 14 /* label text height */
 #define KILN_PREVIEW_BAND 20    /* label band above each row when names are drawn */
+#define KILN_PREVIEW_SAMPLE 8      /* records per class by default */
+#define KILN_PREVIEW_MAX_SAMPLE 64
 #define KILN_PREVIEW_MAX_TILE 256 /* larger records are shrunk by a whole factor (box filter) */
 
 struct kiln_preview_report {
