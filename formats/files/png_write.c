@@ -107,7 +107,7 @@ int kiln_png_save(const char *path, const uint8_t *px, uint32_t w, uint32_t h, u
     struct kiln_outfile of;
     rc = kiln_outfile_open(&of, path, err);
     if (!rc) {
-        rc = kiln_pwrite_all(of.fd, data, len, 0, err);
+        rc = kiln_outfile_write_at(&of, data, len, 0, err);
         if (rc)
             kiln_outfile_abort(&of);
         else
