@@ -33,6 +33,48 @@ static void place(uint8_t *canvas, uint32_t cw, const uint8_t *px, uint32_t w, u
         }
 }
 
+/* One row per class with records (counts[c]; counts[nclasses]: unlabelled), each under its
+ * name band when font is given, holding up to per_class sampled records. */
+static int draw_rows(struct kiln_kten_view *v, const size_t *counts, size_t per_class,
+                     uint64_t *pick, uint8_t *rec, uint32_t f, struct kiln_font *font,
+                     uint8_t *canvas, struct kiln_preview_report *rep, struct kiln_err *err)
+{
+    static const uint8_t ink[3] = {235, 235, 235};
+    const uint32_t W = rep->width, H = rep->height, band = font ? KILN_PREVIEW_BAND : 0;
+    uint32_t y = KILN_PREVIEW_MARGIN;
+    int rc = KILN_OK;
+    for (size_t c = 0; c <= v->nclasses && !rc; c++) {
+        if (!counts[c])
+            continue;
+        if (font) {
+            char text[512];
+            snprintf(text, sizeof text, "%s (%zu %s)", c < v->nclasses ? v->classes[c] : "no label",
+                     counts[c], counts[c] == 1 ? "record" : "records");
+            kiln_font_draw(font, canvas, W, H, KILN_PREVIEW_MARGIN, (int)y + KILN_PREVIEW_FONT_PX,
+                           (int)W - KILN_PREVIEW_MARGIN, text, ink);
+        }
+        y += band;
+        size_t k = 0;
+        if (c < v->nclasses) {
+            k = kiln_kten_view_sample(v, (int32_t)c, per_class, pick);
+        } else { /* unlabelled or out-of-range labels, in record order */
+            for (uint64_t i = 0; i < v->n && k < per_class; i++)
+                if (v->labels[i] < 0 || (size_t)v->labels[i] >= v->nclasses)
+                    pick[k++] = i;
+        }
+        for (size_t j = 0; j < k && !rc; j++) {
+            rc = kiln_kten_view_record(v, pick[j], rec, err);
+            if (!rc)
+                place(canvas, W, rec, v->w, v->h, v->c, f,
+                      KILN_PREVIEW_MARGIN + (uint32_t)j * (rep->tile_w + KILN_PREVIEW_GAP), y);
+            rep->tiles++;
+        }
+        y += rep->tile_h + KILN_PREVIEW_GAP;
+        rep->rows++;
+    }
+    return rc;
+}
+
 int kiln_stage_preview(const char *kten, const char *png, size_t per_class,
                        struct kiln_preview_report *rep, struct kiln_err *err)
 {
@@ -54,9 +96,6 @@ int kiln_stage_preview(const char *kten, const char *png, size_t per_class,
     rep->tile_w = v.w / f ? v.w / f : 1;
     rep->tile_h = v.h / f ? v.h / f : 1;
     /* Rows: every class with records, then unlabelled records. */
-    bool unlabelled = false;
-    for (uint64_t i = 0; i < v.n; i++)
-        unlabelled |= v.labels[i] < 0 || (size_t)v.labels[i] >= v.nclasses;
     size_t *counts = kiln_alloc_array(v.nclasses + 1, sizeof *counts);
     uint64_t *pick = kiln_alloc_array(per_class, sizeof *pick);
     uint8_t *rec = NULL, *canvas = NULL;
@@ -99,39 +138,8 @@ int kiln_stage_preview(const char *kten, const char *png, size_t per_class,
     memset(canvas, 32, cbytes); /* dark grey: records with black borders stay visible */
     rep->width = (uint32_t)W;
     rep->height = (uint32_t)H;
-    uint32_t y = KILN_PREVIEW_MARGIN;
-    static const uint8_t ink[3] = {235, 235, 235};
-    for (size_t c = 0; c <= v.nclasses && !rc; c++) {
-        if (!counts[c])
-            continue;
-        if (rep->labelled) {
-            char text[512];
-            snprintf(text, sizeof text, "%s (%zu %s)", c < v.nclasses ? v.classes[c] : "no label",
-                     counts[c], counts[c] == 1 ? "record" : "records");
-            kiln_font_draw(&font, canvas, (uint32_t)W, (uint32_t)H, KILN_PREVIEW_MARGIN,
-                           (int)y + KILN_PREVIEW_FONT_PX, (int)W - KILN_PREVIEW_MARGIN, text, ink);
-        }
-        y += band;
-        const int32_t cls = c < v.nclasses ? (int32_t)c : -1;
-        size_t k;
-        if (cls >= 0) {
-            k = kiln_kten_view_sample(&v, cls, per_class, pick);
-        } else { /* unlabelled or out-of-range labels, in record order */
-            k = 0;
-            for (uint64_t i = 0; i < v.n && k < per_class; i++)
-                if (v.labels[i] < 0 || (size_t)v.labels[i] >= v.nclasses)
-                    pick[k++] = i;
-        }
-        for (size_t j = 0; j < k && !rc; j++) {
-            rc = kiln_kten_view_record(&v, pick[j], rec, err);
-            if (!rc)
-                place(canvas, (uint32_t)W, rec, v.w, v.h, v.c, f,
-                      KILN_PREVIEW_MARGIN + (uint32_t)j * (rep->tile_w + KILN_PREVIEW_GAP), y);
-            rep->tiles++;
-        }
-        y += rep->tile_h + KILN_PREVIEW_GAP;
-        rep->rows++;
-    }
+    rc = draw_rows(&v, counts, per_class, pick, rec, f, rep->labelled ? &font : NULL, canvas,
+                   rep, err);
     if (rep->labelled)
         kiln_font_close(&font);
     if (!rc)
