@@ -112,14 +112,18 @@ int kiln_manifest_load(const char *path, json_t **doc, struct kiln_err *err)
         }
         used += (size_t)snprintf(keys + used, sizeof keys - used, "%s%s", k > 1 ? ", " : "", key);
     }
+    /* format points into the document: the message is made before it is freed. */
+    if (format)
+        rc = kiln_err_set(err, KILN_EINVAL, "%s is not a kiln manifest: its \"%s\" is \"%.60s\"",
+                          path, KILN_MANIFEST_FORMAT_KEY, format);
+    else
+        rc = kiln_err_set(err, KILN_EINVAL,
+                          "%s is not a kiln manifest: it has no \"%s\": \"%s\" (its keys: %s)",
+                          path, KILN_MANIFEST_FORMAT_KEY, KILN_MANIFEST_FORMAT,
+                          keys[0] ? keys : "none");
     json_decref(*doc);
     *doc = NULL;
-    if (format)
-        return kiln_err_set(err, KILN_EINVAL, "%s is not a kiln manifest: its \"%s\" is \"%.60s\"",
-                            path, KILN_MANIFEST_FORMAT_KEY, format);
-    return kiln_err_set(err, KILN_EINVAL,
-                        "%s is not a kiln manifest: it has no \"%s\": \"%s\" (its keys: %s)", path,
-                        KILN_MANIFEST_FORMAT_KEY, KILN_MANIFEST_FORMAT, keys[0] ? keys : "none");
+    return rc;
 }
 
 const char *kiln_json_str(const json_t *obj, const char *key)
