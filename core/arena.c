@@ -31,13 +31,15 @@ void kiln_arena_free(struct kiln_arena *a)
     a->used_bytes = 0;
 }
 
-char *kiln_arena_strndup(struct kiln_arena *a, const char *s, size_t n)
+/* need bytes from the head chunk starting at a multiple of align (a power of two up to 8,
+ * the alignment of a chunk's data), or from a new chunk. */
+static char *take(struct kiln_arena *a, size_t need, size_t align)
 {
-    if (n >= SIZE_MAX - sizeof(struct kiln_arena_chunk) - ARENA_CHUNK)
+    if (need >= SIZE_MAX - sizeof(struct kiln_arena_chunk) - ARENA_CHUNK)
         return NULL;
-    size_t need = n + 1;
     struct kiln_arena_chunk *c = a->head;
-    if (!c || c->cap - c->used < need) {
+    size_t at = c ? (c->used + align - 1) & ~(align - 1) : 0;
+    if (!c || at > c->cap || c->cap - at < need) {
         size_t cap = need > ARENA_CHUNK ? need : ARENA_CHUNK;
         c = malloc(sizeof *c + cap);
         if (!c)
@@ -46,12 +48,29 @@ char *kiln_arena_strndup(struct kiln_arena *a, const char *s, size_t n)
         c->used = 0;
         c->next = a->head;
         a->head = c;
+        at = 0;
     }
-    char *p = c->data + c->used;
-    memcpy(p, s, n);
-    p[n] = '\0';
-    c->used += need;
-    a->used_bytes += need;
+    char *p = c->data + at;
+    a->used_bytes += need + (at - c->used);
+    c->used = at + need;
+    return p;
+}
+
+char *kiln_arena_strndup(struct kiln_arena *a, const char *s, size_t n)
+{
+    char *p = n < SIZE_MAX ? take(a, n + 1, 1) : NULL;
+    if (p) {
+        memcpy(p, s, n);
+        p[n] = '\0';
+    }
+    return p;
+}
+
+void *kiln_arena_alloc(struct kiln_arena *a, size_t n)
+{
+    char *p = take(a, n ? n : 1, 8);
+    if (p)
+        memset(p, 0, n ? n : 1);
     return p;
 }
 

@@ -19,5 +19,7 @@ void kiln_arena_free(struct kiln_arena *a);
  * kiln_arena_free. */
 char *kiln_arena_strndup(struct kiln_arena *a, const char *s, size_t n);
 char *kiln_arena_strdup(struct kiln_arena *a, const char *s);
+/* n bytes aligned for any pointer or 64-bit field, zeroed; NULL on allocation failure. */
+void *kiln_arena_alloc(struct kiln_arena *a, size_t n);
 
 #endif

@@ -91,6 +91,7 @@ void kiln_catalog_free(struct kiln_catalog *cat)
         cat->fps_close(cat->fps);
     free(cat->items);
     free(cat->classes);
+    free(cat->interned);
     kiln_arena_free(&cat->strings);
     memset(cat, 0, sizeof *cat);
 }
@@ -102,24 +103,65 @@ static const char *intern(struct kiln_catalog *cat, const char *s)
     return kiln_arena_strdup(&cat->strings, s);
 }
 
+/* Like intern, but a short string seen before is shared (FNV-1a, linear probing). When the
+ * table is half full or cannot be allocated, new strings are simply copied. */
+static const char *intern_shared(struct kiln_catalog *cat, const char *s)
+{
+    if (!s || !*s)
+        return "";
+    size_t len = strnlen(s, KILN_CATALOG_INTERN_MAXLEN + 1);
+    if (len > KILN_CATALOG_INTERN_MAXLEN)
+        return kiln_arena_strdup(&cat->strings, s);
+    if (!cat->interned) {
+        cat->interned = calloc(KILN_CATALOG_INTERN_SLOTS, sizeof *cat->interned);
+        if (!cat->interned)
+            return kiln_arena_strdup(&cat->strings, s);
+    }
+    uint32_t h = 2166136261u;
+    for (size_t i = 0; i < len; i++)
+        h = (h ^ (uint8_t)s[i]) * 16777619u;
+    const size_t mask = KILN_CATALOG_INTERN_SLOTS - 1;
+    size_t k = h & mask;
+    for (; cat->interned[k]; k = (k + 1) & mask)
+        if (strcmp(cat->interned[k], s) == 0)
+            return cat->interned[k];
+    const char *copy = kiln_arena_strndup(&cat->strings, s, len);
+    if (copy && cat->ninterned < KILN_CATALOG_INTERN_SLOTS / 2) {
+        cat->interned[k] = copy;
+        cat->ninterned++;
+    }
+    return copy;
+}
+
 int kiln_catalog_add(struct kiln_catalog *cat, const struct kiln_item *item, struct kiln_err *err)
 {
     if (!kiln_grow((void **)&cat->items, &cat->cap, cat->n + 1, sizeof *cat->items))
         return kiln_err_set(err, KILN_ENOMEM, "cannot grow the catalogue past %zu rows", cat->n);
     struct kiln_item *dst = &cat->items[cat->n];
     *dst = *item;
-    dst->source = intern(cat, item->source);
+    dst->source = intern_shared(cat, item->source);
     dst->path = intern(cat, item->path);
     dst->member = intern(cat, item->member);
-    dst->format = intern(cat, item->format);
-    dst->label = intern(cat, item->label);
-    dst->group = intern(cat, item->group);
-    dst->reason = intern(cat, item->reason);
-    dst->notes = intern(cat, item->notes);
+    dst->format = intern_shared(cat, item->format);
+    dst->label = intern_shared(cat, item->label);
+    dst->group = intern_shared(cat, item->group);
+    dst->reason = intern_shared(cat, item->reason);
+    dst->notes = intern_shared(cat, item->notes);
     if (!dst->source || !dst->path || !dst->member || !dst->format || !dst->label ||
         !dst->group || !dst->reason || !dst->notes)
         return kiln_err_set(err, KILN_ENOMEM, "cannot store catalogue strings");
     cat->n++;
+    return KILN_OK;
+}
+
+int kiln_catalog_set_from(struct kiln_catalog *cat, struct kiln_item *it, const char *source,
+                          const char *path, const char *member, struct kiln_err *err)
+{
+    struct kiln_location *at = kiln_arena_alloc(&cat->strings, sizeof *at);
+    if (!at)
+        return kiln_err_set(err, KILN_ENOMEM, "cannot record where an item is read from");
+    *at = (struct kiln_location){source, path, member};
+    it->from = at;
     return KILN_OK;
 }
 

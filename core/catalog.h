@@ -47,6 +47,11 @@ int kiln_split_parse(const char *name);  /* -1 for "" or unknown */
  * not be written back (formats/files/catalog_csv.c refuses). */
 #define KILN_FP_SKIPPED (UINT32_MAX - 1)
 
+/* A place to read an item's bytes from. */
+struct kiln_location {
+    const char *source, *path, *member;
+};
+
 struct kiln_item {
     const char *source; /* source root as given on the command line */
     const char *path;   /* relative path under the source (of the archive, for members) */
@@ -57,8 +62,10 @@ struct kiln_item {
     const char *reason; /* human explanation when status != ok, else "" */
     const char *notes;  /* facts that do not change pixels ("interlaced; sRGB ignored"), or "" */
     /* Where pack reads the bytes when that differs from the recorded location (reproduce finds
-     * moved files by content); NULL = the recorded source, path and member. Not stored in CSV. */
-    const char *from_source, *from_path, *from_member;
+     * moved files by content; hashed names keep the real ones here); NULL = the recorded
+     * source, path and member. In the catalogue's arena; not stored in CSV. One pointer, not
+     * three: a row's size counts a million times (docs/performance.md, memory at scale). */
+    const struct kiln_location *from;
     uint64_t size;
     uint64_t unit_key; /* set by split: the keyed hash of the item's unit */
     uint8_t sha256[KILN_SHA256_LEN];       /* of the file bytes */
@@ -84,12 +91,20 @@ struct kiln_item {
 
 struct kiln_fpstore; /* formats/files/fpstore.h */
 
+#define KILN_CATALOG_INTERN_SLOTS 4096
+#define KILN_CATALOG_INTERN_MAXLEN 64
+
 struct kiln_catalog {
     struct kiln_item *items;
     size_t n, cap;
     char **classes; /* byte-wise sorted distinct labels of usable items; strings in the arena */
     size_t nclasses;
     struct kiln_arena strings;
+    /* Short strings that repeat from row to row (source, format, label, group, reason, notes)
+     * are stored once: at 10^6 rows that is tens of MiB (docs/performance.md). An open-
+     * addressing table of KILN_CATALOG_INTERN_SLOTS, filled to half at most, then left as is. */
+    const char **interned;
+    size_t ninterned;
     /* The near-duplicate fingerprints of the items (fp_slot), or NULL. Whoever sets it sets
      * fps_close, which kiln_catalog_free calls (core/ does no I/O itself). */
     struct kiln_fpstore *fps;
@@ -102,6 +117,11 @@ void kiln_catalog_free(struct kiln_catalog *cat);
 /* Appends a copy of *item; its strings (NULL allowed, meaning "") are copied into the arena.
  * Returns KILN_OK or KILN_ENOMEM. */
 int kiln_catalog_add(struct kiln_catalog *cat, const struct kiln_item *item, struct kiln_err *err);
+
+/* Records that pack reads its bytes from (source, path, member) instead of the item's
+ * recorded location; the strings must live as long as the catalogue. KILN_ENOMEM. */
+int kiln_catalog_set_from(struct kiln_catalog *cat, struct kiln_item *it, const char *source,
+                          const char *path, const char *member, struct kiln_err *err);
 
 /* Sorts rows by (source, path, member) in byte order, so the catalogue never depends on the
  * order in which a file system or an archive listed its entries. */

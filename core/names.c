@@ -95,10 +95,10 @@ int kiln_names_catalog(const struct kiln_names *n, struct kiln_catalog *cat, str
         return KILN_OK;
     for (size_t i = 0; i < cat->n; i++) {
         struct kiln_item *it = &cat->items[i];
-        if (!it->from_source) { /* reading still needs the real names */
-            it->from_source = it->source;
-            it->from_path = it->path;
-            it->from_member = it->member;
+        if (!it->from) { /* reading still needs the real names */
+            int rc = kiln_catalog_set_from(cat, it, it->source, it->path, it->member, err);
+            if (rc)
+                return rc;
         }
         const char *raw[] = {it->source, it->path, it->member, last_component(it->path),
                              last_component(it->member)};

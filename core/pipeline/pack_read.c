@@ -32,17 +32,17 @@ static int queue_job(struct pack_run *run, uint32_t item, uint8_t *data, size_t 
 
 static const char *fetch_source(const struct kiln_item *it)
 {
-    return it->from_source ? it->from_source : it->source;
+    return it->from ? it->from->source : it->source;
 }
 
 static const char *fetch_path(const struct kiln_item *it)
 {
-    return it->from_source ? it->from_path : it->path;
+    return it->from ? it->from->path : it->path;
 }
 
 static const char *fetch_member(const struct kiln_item *it)
 {
-    return it->from_source ? it->from_member : it->member;
+    return it->from ? it->from->member : it->member;
 }
 
 /* The file to open for an item: its source itself for an archive that is the source. */

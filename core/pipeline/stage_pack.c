@@ -262,10 +262,10 @@ static int check_catalogue(const struct kiln_catalog *cat,
         if (it->split != KILN_SPLIT_NONE && it->status != KILN_ST_OK)
             return kiln_err_set(err, KILN_EINVAL, "catalogue row %zu has a split but status %s",
                                 i + 1, kiln_status_name(it->status));
-        const char *path = it->from_source ? it->from_path : it->path;
+        const char *path = it->from ? it->from->path : it->path;
         if (it->split != KILN_SPLIT_NONE && !allow_outside && path_leaves(path)) {
             char *shown = kiln_text_escape(path);
-            char *src = kiln_text_escape(it->from_source ? it->from_source : it->source);
+            char *src = kiln_text_escape(it->from ? it->from->source : it->source);
             kiln_err_set(err, KILN_EINVAL,
                          "catalogue row %zu names the path '%s', which leaves its source %s; "
                          "scan never writes such rows (--allow-outside-paths reads them)",

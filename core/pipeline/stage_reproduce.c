@@ -237,9 +237,9 @@ static int locate_items(struct repro_run *r, uint32_t *moved, struct kiln_err *e
             continue;
         }
         rep->found++;
-        it->from_source = hit->source;
-        it->from_path = hit->path;
-        it->from_member = hit->member;
+        rc = kiln_catalog_set_from(&r->cat, it, hit->source, hit->path, hit->member, err);
+        if (rc)
+            return rc;
         in_place += at_place;
         if (!at_place)
             moved[rep->moved++] = (uint32_t)i;
@@ -253,8 +253,8 @@ static int locate_items(struct repro_run *r, uint32_t *moved, struct kiln_err *e
         const struct kiln_item *it = &r->cat.items[moved[k]];
         char rel[4096], now[4096];
         kiln_catalog_relname(it->path, it->member, rel, sizeof rel);
-        kiln_catalog_relname(it->from_path, it->from_member, now, sizeof now);
-        note(r->fn, r->ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from_source, now);
+        kiln_catalog_relname(it->from->path, it->from->member, now, sizeof now);
+        note(r->fn, r->ctx, KILN_REPRO_MOVED, "%s is now %s/%s", rel, it->from->source, now);
     }
     if (rep->missing && !r->o->allow_missing)
         return kiln_err_set(err, KILN_EMISMATCH,

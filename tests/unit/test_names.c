@@ -66,8 +66,9 @@ static void test_catalogue(void **state)
     assert_string_equal(x->member, "");
     assert_string_equal(x->group, "");
     assert_string_equal(x->label, "malignant"); /* class names are kept */
-    assert_string_equal(x->from_path, "malignant/b/x1.png");
-    assert_string_equal(x->from_source, "Klinik");
+    assert_non_null(x->from);
+    assert_string_equal(x->from->path, "malignant/b/x1.png");
+    assert_string_equal(x->from->source, "Klinik");
     /* whole tokens only: "x1.pngs" and the "b" inside words stay */
     assert_string_equal(x->reason, "h:d03e0f8ae413959dffc3ef449140b72f: cannot read "
                                    "h:20658101d3a3b4bb7775c600df01b8ef (b is busy; x1.pngs "
