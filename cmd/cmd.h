@@ -85,7 +85,7 @@ struct cli_command {
 extern const char *cli_cmd_name;
 
 extern const struct cli_command cli_scan, cli_split, cli_pack, cli_build, cli_audit,
-    cli_verify, cli_reproduce, cli_inspect;
+    cli_verify, cli_reproduce, cli_inspect, cli_report;
 
 /* Parses argv (argv[0] is the command's name) by c's table into a (whose group pointers and own
  * options the caller has set, with their defaults): applies every option, checks the number of

@@ -11,7 +11,7 @@
 
 static const struct cli_command *const commands[] = {
     &cli_scan, &cli_split, &cli_pack, &cli_build, &cli_audit, &cli_verify, &cli_reproduce,
-    &cli_inspect,
+    &cli_inspect, &cli_report,
 };
 
 #define NCOMMANDS (sizeof commands / sizeof commands[0])

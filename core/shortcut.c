@@ -223,10 +223,12 @@ static int cmp_ranked(const void *a, const void *b)
     return strcmp(((const struct ranked *)a)->s, ((const struct ranked *)b)->s);
 }
 
-static bool counted(const struct kiln_item *it)
+/* Packed and labelled; a class index outside the class list (a catalogue whose classes were
+ * not indexed, or a hand-edited one) is not counted rather than read out of bounds. */
+static bool counted(const struct kiln_catalog *cat, const struct kiln_item *it)
 {
     return it->status == KILN_ST_OK && it->split >= 0 && it->split < KILN_NSPLITS &&
-           it->class_index >= 0;
+           it->class_index >= 0 && (size_t)it->class_index < cat->nclasses;
 }
 
 /* Scores the per-value majority rule learnt on train against the baseline on split s. */
@@ -258,7 +260,7 @@ static int run_attr(const struct kiln_catalog *cat, struct kiln_shortcuts *out, 
     int rc = KILN_OK;
     for (size_t i = 0; i < cat->n && !rc; i++) {
         ids[i] = UINT32_MAX;
-        if (counted(&cat->items[i]) && kiln_shortcut_value(attr, &cat->items[i], buf, sizeof buf))
+        if (counted(cat, &cat->items[i]) && kiln_shortcut_value(attr, &cat->items[i], buf, sizeof buf))
             rc = intern_get(&t, &out->strings, buf, &ids[i]);
     }
     uint32_t *rank = NULL;
@@ -358,7 +360,7 @@ int kiln_shortcuts_run(const struct kiln_catalog *cat, struct kiln_shortcuts *ou
     }
     memset(per_class, 0, (cat->nclasses ? cat->nclasses : 1) * sizeof *per_class);
     for (size_t i = 0; i < cat->n; i++)
-        if (counted(&cat->items[i]) && cat->items[i].split == KILN_SPLIT_TRAIN)
+        if (counted(cat, &cat->items[i]) && cat->items[i].split == KILN_SPLIT_TRAIN)
             per_class[cat->items[i].class_index]++;
     uint64_t best = 0;
     for (size_t c = 0; c < cat->nclasses; c++)

@@ -6,10 +6,11 @@ libarchive-dev libssl-dev libjansson-dev libtiff-dev libfreetype-dev libfontconf
 # The Python client (examples/python/, docs/training.md): what examples/python/install.sh and the demo's
 # examples/train_torch.py need.
 KILN_PYTHON_PACKAGES="python3-numpy python3-pip python3-setuptools python3-wheel python3-torch"
-# Tests: reference libraries, and scikit-learn's digits and scikit-image's pictures as
-# published real images.
+# Tests: reference libraries, scikit-learn's digits and scikit-image's pictures as published
+# real images, and chromium for the report's browser test (tests/cli/report_browser.sh).
 KILN_TEST_PACKAGES="libcmocka-dev python3-numpy python3-pil zip xz-utils bzip2 zstd libarchive-tools \
-$KILN_PYTHON_PACKAGES python3-sklearn python3-skimage python-matplotlib-data python3-tifffile"
+$KILN_PYTHON_PACKAGES python3-sklearn python3-skimage python-matplotlib-data python3-tifffile \
+chromium"
 # tests/fuzz/run.sh: clang with libFuzzer and the sanitizer run-times
 KILN_FUZZ_PACKAGES="clang libclang-rt-14-dev"
 
