@@ -452,6 +452,16 @@ def labels_seeds():
     }
 
 
+def items_seeds():
+    head = b"row,source,path,member,size,sha256,label,class,group,unit,split,index,status,reason\r\n"
+    sha = "ab" * 32
+    packed = (f"0,data,cats/a.png,,120,{sha},cat,0,s1,0123456789abcdef,train,0,ok,\r\n"
+              f"1,data,set.zip,dogs/b.png,99,{sha},dog,1,,fedcba9876543210,test,0,ok,\r\n").encode()
+    rest = b'2,data,notes.txt,,5,,,,,,,,not-image,"content is not a known image format, ""x"""\r\n'
+    return {"ok-items.csv": head + packed + rest,
+            "ok-items-unpacked-only.csv": head + rest.replace(b"2,", b"0,", 1)}
+
+
 # ---- .kten (docs/format.md) ----------------------------------------------------------------------
 
 def kten_bytes(arrays, meta):
@@ -537,6 +547,7 @@ def main():
                  for o in range(2, 9) for be in (False, True)},
         "archive": archive_seeds([png["ok-c2-d8-11x3.png"], png["ok-c0-d8-13x7.png"]]),
         "csv": csv_seeds(), "catalog_csv": catalog_seeds(), "labels_csv": labels_seeds(),
+        "items_csv": items_seeds(),
         "kten": kten_seeds(), "manifest": manifest_seeds(), "keep": keep_seeds(),
     }
     for harness, seeds in groups.items():

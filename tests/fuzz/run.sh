@@ -15,7 +15,7 @@ src=$(cd "$(dirname "$0")/../.." && pwd)
 fuzz=$src/tests/fuzz
 secs=${FUZZ_SECONDS:-30}
 build=${FUZZ_BUILD:-$src/build-fuzz}
-all="png jpeg tiff pnm exif archive csv catalog_csv labels_csv kten manifest keep"
+all="png jpeg tiff pnm exif archive csv catalog_csv labels_csv items_csv kten manifest keep"
 harnesses=${*:-$all}
 
 for d in "${KILN_TESTDATA:-}" "$src/../shared/testdata" "$src/../../shared/testdata" \
