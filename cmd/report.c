@@ -24,6 +24,12 @@ static const struct cli_opt opts[] = {
     CLI_HEADING("options:"),
     {"output", 'o', CLI_VALUE, "FILE.html", "the report to write (required)", cli_set_output,
      "-o report.html is required"},
+    {"source", 's', CLI_VALUE, "DIR",
+     "also find every recorded source file by content in DIR\n"
+     "(repeatable), as verify --source does",
+     cli_set_source},
+    {"path-key", 0, CLI_VALUE, "FILE", "the key of a --hash-paths output (as for verify)",
+     cli_set_path_key},
     {"sample", 0, CLI_VALUE, "N",
      "thumbnails per class and split (default 4, 1 to 32; fewer\n"
      "when classes are many: at most 1200 in all)",
@@ -47,8 +53,10 @@ const struct cli_command cli_report = {
              "orientation, JPEG coding and file-size band with the shortcut check; sample\n"
              "thumbnails of the packed records per class and split; every audit finding with\n"
              "its pictures and evidence; and every file not packed, by status, with its\n"
-             "reason. Exit 0 when written, 4 when the folder's files do not match their\n"
-             "checksums (the report shows which), 3 when the folder cannot be read.\n",
+             "reason. With --source, also whether every recorded source file is still there.\n"
+             "Exit 0 when written, 4 when the folder's files do not match their checksums, 5\n"
+             "when a source file is missing or changed (the report shows which), 3 when the\n"
+             "folder cannot be read.\n",
     .opts = opts,
     .min_args = 1,
     .max_args = 1,
@@ -56,15 +64,18 @@ const struct cli_command cli_report = {
     .main = cmd_report,
 };
 
-static int report(const char *outdir, const char *html, const struct report_opts *o, bool quiet)
+static int report(const struct cli_args *a, const struct report_opts *o)
 {
+    const char *outdir = a->argv[0], *html = a->output;
     const int code = cli_check_output_file(html);
     if (code)
         return code;
     struct kiln_report_summary sum;
     struct kiln_err err;
     kiln_err_clear(&err);
-    int rc = kiln_stage_report(outdir, html, o->sample, &sum, &err);
+    const struct kiln_report_opts ro = {outdir, html, o->sample, a->sources, a->nsources,
+                                        a->path_key, a->path_key_len};
+    int rc = kiln_stage_report(&ro, &sum, &err);
     if (rc) {
         cli_error("%s", err.msg);
         return rc == KILN_EWRITE || rc == KILN_ENOMEM ? KILN_EXIT_FAILURE : cli_exit_for_input(rc);
@@ -74,7 +85,10 @@ static int report(const char *outdir, const char *html, const struct report_opts
     else if (sum.problems)
         cli_error("%s: %zu %s with verify (listed in %s)", outdir, sum.problems,
                   sum.problems == 1 ? "problem" : "problems", html);
-    if (!quiet) {
+    if (sum.sources_missing || sum.sources_changed)
+        cli_error("%s: %zu source files missing, %zu changed (listed in %s)", outdir,
+                  sum.sources_missing, sum.sources_changed, html);
+    if (!a->quiet) {
         struct stat st;
         const long long bytes = stat(html, &st) == 0 ? (long long)st.st_size : -1;
         printf("report: %s (%.1f kB), %zu %s (%zu per class and split), %zu audit %s, %zu %s "
@@ -84,7 +98,9 @@ static int report(const char *outdir, const char *html, const struct report_opts
                sum.not_packed == 1 ? "row" : "rows", sum.shortcuts,
                sum.shortcuts == 1 ? "warning" : "warnings");
     }
-    return sum.verified && sum.problems ? KILN_EXIT_DAMAGED : KILN_EXIT_OK;
+    if (sum.verified && sum.problems)
+        return KILN_EXIT_DAMAGED;
+    return sum.sources_missing || sum.sources_changed ? KILN_EXIT_DRIFT : KILN_EXIT_OK;
 }
 
 static int cmd_report(int argc, char **argv)
@@ -93,7 +109,7 @@ static int cmd_report(int argc, char **argv)
     struct cli_args a = {.own = &o};
     int code = cli_parse(&cli_report, argc, argv, &a);
     if (code == CLI_GO)
-        code = report(a.argv[0], a.output, &o, a.quiet);
+        code = report(&a, &o);
     cli_args_free(&a);
     return code;
 }

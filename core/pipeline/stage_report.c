@@ -95,16 +95,41 @@ static int load(struct run *r, struct kiln_err *err)
 static void on_problem(void *ctx, int kind, const char *msg)
 {
     struct kiln_report_verify *v = ctx;
-    (void)kind;
-    if (v->nmessages >= KILN_REPORT_PROBLEMS)
-        return;
-    char *copy = strdup(msg);
-    if (copy)
+    static const char *const words[] = {"", "damaged", "missing", "source missing",
+                                        "source changed", "source moved", "extra"};
+    if (kind == KILN_ISSUE_SOURCE_EXTRA || v->nmessages >= KILN_REPORT_PROBLEMS)
+        return; /* extra source files are not the output's business */
+    const size_t n = strlen(msg) + 32;
+    char *copy = malloc(n);
+    if (copy) {
+        snprintf(copy, n, "%s: %s", kind >= 1 && kind <= 6 ? words[kind] : "?", msg);
         v->message[v->nmessages++] = copy;
+    }
+}
+
+/* With sources: every recorded source file looked for by content. */
+static void verify_sources(struct run *r, const struct kiln_report_opts *o,
+                           struct kiln_verify_report *rep)
+{
+    struct kiln_report_verify *v = &r->html.verify;
+    struct kiln_err e;
+    kiln_err_clear(&e);
+    v->sources_given = true;
+    int rc = kiln_stage_verify_sources(r->outdir, o->sources, o->nsources, o->path_key,
+                                       o->path_key_len, on_problem, v, rep, &e);
+    v->sources_ran = rc == KILN_OK || rc == KILN_EMISMATCH;
+    if (!v->sources_ran)
+        snprintf(v->sources_error, sizeof v->sources_error, "%s", e.msg);
+    v->sources_checked = rep->sources_checked;
+    v->sources_missing = rep->sources_missing;
+    v->sources_changed = rep->sources_changed;
+    v->sources_moved = rep->sources_moved;
+    v->sources_extra = rep->sources_extra;
+    v->places_unknown = rep->places_unknown;
 }
 
 /* verify's verdict on the folder; a folder that cannot be verified is shown as such. */
-static int verify(struct run *r, struct kiln_err *err)
+static int verify(struct run *r, const struct kiln_report_opts *o, struct kiln_err *err)
 {
     struct kiln_report_verify *v = &r->html.verify;
     v->message = kiln_alloc_array(KILN_REPORT_PROBLEMS, sizeof *v->message);
@@ -120,6 +145,8 @@ static int verify(struct run *r, struct kiln_err *err)
     v->files = rep.files_checked;
     v->arrays = rep.arrays_checked;
     v->problems = v->ran ? rep.problems : 0;
+    if (v->ran && o->nsources)
+        verify_sources(r, o, &rep);
     return KILN_OK;
 }
 
@@ -412,19 +439,19 @@ static void run_free(struct run *r)
     kiln_arena_free(&r->strings);
 }
 
-int kiln_stage_report(const char *outdir, const char *html, size_t per_class,
-                      struct kiln_report_summary *sum, struct kiln_err *err)
+int kiln_stage_report(const struct kiln_report_opts *o, struct kiln_report_summary *sum,
+                      struct kiln_err *err)
 {
     struct run r;
     memset(&r, 0, sizeof r);
     memset(sum, 0, sizeof *sum);
-    r.outdir = outdir;
+    r.outdir = o->outdir;
     kiln_catalog_init(&r.cat);
     kiln_arena_init(&r.strings);
-    r.html.outdir = outdir;
+    r.html.outdir = o->outdir;
     int rc = load(&r, err);
     if (!rc)
-        rc = verify(&r, err);
+        rc = verify(&r, o, err);
     if (!rc) {
         struct kiln_err e;
         kiln_err_clear(&e);
@@ -434,18 +461,21 @@ int kiln_stage_report(const char *outdir, const char *html, size_t per_class,
         rc = open_views(&r, err);
     }
     if (!rc)
-        rc = sample(&r, per_class, sum, err);
+        rc = sample(&r, o->per_class, sum, err);
     if (!rc)
         rc = findings(&r, err);
     if (!rc)
         rc = not_packed(&r, sum, err);
     if (!rc) {
         r.html.manifest = r.manifest;
-        rc = kiln_report_html_save(html, &r.html, err);
+        rc = kiln_report_html_save(o->html, &r.html, err);
     }
     sum->findings = r.html.nfindings + r.html.findings_not_listed;
     sum->verified = r.html.verify.ran;
     sum->problems = r.html.verify.problems;
+    sum->sources_checked = r.html.verify.sources_ran;
+    sum->sources_missing = r.html.verify.sources_missing;
+    sum->sources_changed = r.html.verify.sources_changed;
     sum->shortcuts = r.have_sc ? r.sc.fired : 0;
     run_free(&r);
     return rc;

@@ -149,6 +149,19 @@ static void summary(FILE *f, const struct kiln_report *r)
     else
         fprintf(f, "<li class=\"ok\">checksums: all %zu files and %zu arrays match</li>\n",
                 r->verify.files, r->verify.arrays);
+    const struct kiln_report_verify *v = &r->verify;
+    if (v->sources_given && !v->sources_ran)
+        fputs("<li class=\"bad\">sources not checked: ", f), kiln_html_text(f, v->sources_error),
+            fputs("</li>\n", f);
+    else if (v->sources_given && (v->sources_missing || v->sources_changed))
+        fprintf(f, "<li class=\"bad\">sources: %zu of %zu recorded files missing, %zu changed "
+                "(see Run)</li>\n", v->sources_missing, v->sources_checked, v->sources_changed);
+    else if (v->sources_given)
+        fprintf(f, "<li class=\"ok\">sources: all %zu recorded files found (%zu moved)</li>\n",
+                v->sources_checked, v->sources_moved);
+    else
+        fputs("<li>sources: not checked (<code>kiln report OUTDIR --source DIR</code> looks for "
+              "every recorded file by content)</li>\n", f);
     if (json_is_true(get(audit, "clean")))
         fputs("<li class=\"ok\">audit: nothing spans two splits</li>\n", f);
     else
@@ -227,6 +240,16 @@ static void run_section(FILE *f, const struct kiln_report *r)
     fprintf(f, "<p class=\"%s\">verify: %zu files and %zu arrays checked, %zu problem%s</p>\n",
             r->verify.problems ? "bad" : "ok", r->verify.files, r->verify.arrays,
             r->verify.problems, r->verify.problems == 1 ? "" : "s");
+    const struct kiln_report_verify *v = &r->verify;
+    if (v->sources_given && v->sources_ran)
+        fprintf(f, "<p class=\"%s\">sources: %zu recorded files looked for by content: %zu "
+                "missing, %zu changed, %zu moved; %zu files in the sources not recorded</p>\n",
+                v->sources_missing || v->sources_changed ? "bad" : "ok", v->sources_checked,
+                v->sources_missing, v->sources_changed, v->sources_moved, v->sources_extra);
+    if (v->places_unknown)
+        fputs("<p class=\"warn\">The names are hashed with a key that was not given "
+              "(--path-key): files found by content cannot be told to be in place or moved.</p>\n",
+              f);
     if (r->verify.nmessages) {
         fputs("<ul>\n", f);
         for (size_t k = 0; k < r->verify.nmessages; k++)

@@ -51,8 +51,13 @@ struct kiln_report_verify {
     bool ran;         /* false: it could not run (error says why) */
     char error[512];
     size_t files, arrays, problems;
-    char **message;   /* the first nmessages problems */
+    char **message;   /* the first nmessages problems (and, with sources, moves) */
     size_t nmessages;
+    /* With sources (report --source): */
+    bool sources_given, sources_ran; /* sources_ran false: sources_error says why */
+    char sources_error[512];
+    size_t sources_checked, sources_missing, sources_changed, sources_moved, sources_extra;
+    bool places_unknown;
 };
 
 struct kiln_report {

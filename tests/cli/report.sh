@@ -2,7 +2,8 @@
 # and PIL (tests/ref/report_check.py): well-formed, nothing fetched, every thumbnail decodes,
 # the balance table equals manifest.json. Also: the same folder gives the same bytes; names
 # holding markup stay text; an audit finding shows its pictures; a damaged output is reported
-# (exit 4) but the page is still written; many classes stay within the thumbnail bound; the
+# (exit 4) but the page is still written; with --source, a missing source file is named (exit
+# 5); many classes stay within the thumbnail bound; the
 # errors name the file. The browser run is tests/cli/report_browser.sh.
 . "$(dirname "$0")/lib.sh"
 need_python
@@ -22,6 +23,20 @@ grep -q 'truncated: 1' "$work/r.html" || fail "the truncated row is not listed"
 expect_exit 0 "$KILN" report "$work/out" -o "$work/again.html" -q
 [ ! -s "$work/stdout" ] || fail "-q printed: $(cat "$work/stdout")"
 cmp "$work/r.html" "$work/again.html" || fail "two reports of one folder differ"
+
+# With --source: every recorded file found (exit 0); one moved out of the sources is missing
+# (exit 5), named on the page, and the page is complete.
+expect_exit 0 "$KILN" report "$work/out" -o "$work/s.html" --source "$work/data"
+grep -q 'class="ok">sources: all 196 recorded files found' "$work/s.html" ||
+    fail "sources not reported: $(grep -o '<li[^>]*>sources[^<]*' "$work/s.html")"
+demo_data_copy "$work/datacopy"
+gone=$(first_file "$work/datacopy/crazing/" -name '*.jpg')
+mv "$gone" "$work/gone.jpg"
+expect_exit 5 "$KILN" report "$work/out" -o "$work/s2.html" --source "$work/datacopy"
+grep -q "1 source files missing" "$work/stderr" || fail "missing source not said: $(cat "$work/stderr")"
+grep -q "source missing: crazing/$(basename "$gone")" "$work/s2.html" ||
+    fail "the missing file is not named on the page"
+grep -q '</html>' "$work/s2.html" || fail "the page is incomplete"
 
 # Names that hold markup, and a group spread over two splits by hand: pack records the
 # finding, the report shows both pictures and the names as text.
