@@ -85,8 +85,8 @@ EOF
 cp -r "$work/out" "$work/bad"
 printf '\x01' | dd of="$work/bad/test.kten" bs=1 seek=5000 conv=notrunc status=none
 expect_exit 4 "$KILN" report "$work/bad" -o "$work/bad.html"
-grep -q "test.kten" "$work/stderr" || grep -q "problem" "$work/stderr" ||
-    fail "the damage is not named: $(cat "$work/stderr")"
+grep -q "problems\? with verify" "$work/stderr" || fail "the damage is not said: $(cat "$work/stderr")"
+grep -q "damaged: .*test.kten" "$work/bad.html" || fail "the damaged file is not named on the page"
 grep -q 'class="bad">checksums: ' "$work/bad.html" || fail "the page does not show the damage"
 grep -q '</html>' "$work/bad.html" || fail "the page of a damaged folder is incomplete"
 
