@@ -85,3 +85,7 @@ with open(sys.argv[1], "w", newline="") as f:
 PY
 split=$(median "$K" split "$work/big.csv" --seed 1 -o "$work/big-out.csv" -q)
 printf 'split of 10^6 rows          %8.3f s\n' "$split"
+
+echo
+echo "side by side, alternating rounds (tests/bench/versus.sh):"
+bash "$here/tests/bench/versus.sh" "$work/set" "$b" "$runs"
