@@ -2,7 +2,7 @@
 # tests/fuzz/run.sh and .ci/run.
 # kiln_deps_install: installs what is missing when root, otherwise prints the exact command.
 KILN_BUILD_PACKAGES="build-essential cmake pkg-config libpng-dev libjpeg62-turbo-dev zlib1g-dev \
-libarchive-dev libssl-dev libjansson-dev libtiff-dev libfreetype-dev libfontconfig-dev fonts-dejavu-core"
+libarchive-dev libssl-dev libjansson-dev libtiff-dev libdeflate-dev libfreetype-dev libfontconfig-dev fonts-dejavu-core"
 # The Python client (examples/python/, docs/training.md): what examples/python/install.sh and the demo's
 # examples/train_torch.py need.
 KILN_PYTHON_PACKAGES="python3-numpy python3-pip python3-setuptools python3-wheel python3-torch"

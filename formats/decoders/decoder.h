@@ -24,6 +24,10 @@ struct kiln_image_info {
      * to equal bytes that decoded cleanly before (pack, after checking the recorded SHA-256):
      * the decoder may then skip the format's own checksums. Pixels are the same either way. */
     uint32_t trusted;
+    /* Set by tests (tests/tools/decode_check.c --library): decode with the library's own code
+     * only, not kiln's faster path for the same data (formats/decoders/png_idat.h), so that the
+     * two can be compared byte for byte. */
+    uint32_t library_only;
 };
 
 /* Limits checked from the header, before any pixel memory is allocated. */

@@ -4,6 +4,7 @@
 
 #include <archive.h>
 #include <errno.h>
+#include <libdeflate.h>
 #include <openssl/crypto.h>
 #include <stdbool.h>
 #include <stdio.h>
@@ -273,13 +274,16 @@ size_t kiln_library_versions(struct kiln_library_version *out, size_t max)
     /* The numbers the loaded libraries report, without names or dates, so that a record
      * compares with a package version (docs/formats.md, "libraries"). */
     const int a = archive_version_number();
-    char numbers[4][48];
+    static const char *const names[5] = {"zlib", "libdeflate", "libarchive", "openssl",
+                                         "jansson"};
+    char numbers[5][48];
     snprintf(numbers[0], sizeof numbers[0], "%s", zlibVersion());
-    snprintf(numbers[1], sizeof numbers[1], "%d.%d.%d", a / 1000000, a / 1000 % 1000, a % 1000);
-    snprintf(numbers[2], sizeof numbers[2], "%s", OpenSSL_version(OPENSSL_VERSION_STRING));
-    snprintf(numbers[3], sizeof numbers[3], "%s", jansson_version_str());
-    static const char *const names[4] = {"zlib", "libarchive", "openssl", "jansson"};
-    for (size_t i = 0; i < 4 && n < max; i++, n++) {
+    /* libdeflate reports no version at run time; the header's is the installed package's. */
+    snprintf(numbers[1], sizeof numbers[1], "%s", LIBDEFLATE_VERSION_STRING);
+    snprintf(numbers[2], sizeof numbers[2], "%d.%d.%d", a / 1000000, a / 1000 % 1000, a % 1000);
+    snprintf(numbers[3], sizeof numbers[3], "%s", OpenSSL_version(OPENSSL_VERSION_STRING));
+    snprintf(numbers[4], sizeof numbers[4], "%s", jansson_version_str());
+    for (size_t i = 0; i < 5 && n < max; i++, n++) {
         out[n].library = names[i];
         memcpy(out[n].version, numbers[i], sizeof out[n].version);
     }

@@ -12,7 +12,7 @@ grep -Eq '^kiln [0-9]+\.[0-9]+\.[0-9]+$' "$work/version" || fail "no kiln versio
 ldd "$KILN" > "$work/ldd"
 # library name as kiln prints it -> shared object it lives in
 declare -A soname=([libpng]=libpng16.so [libjpeg-turbo]=libjpeg.so [libtiff]=libtiff.so
-    [zlib]=libz.so [libarchive]=libarchive.so [openssl]=libcrypto.so [jansson]=libjansson.so)
+    [zlib]=libz.so [libdeflate]=libdeflate.so [libarchive]=libarchive.so [openssl]=libcrypto.so [jansson]=libjansson.so)
 for lib in "${!soname[@]}"; do
     line=$(grep -E "^$lib [^ ]+$" "$work/version") || fail "--version does not name $lib: $(cat "$work/version")"
     got=${line#* }

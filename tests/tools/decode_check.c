@@ -9,7 +9,10 @@
  * crc_identity is the CRC-32 of the PNG samples as stored (low bit depths packed, 16-bit
  * big-endian), rebuilt from the decode for non-palette PNGs, "-" otherwise.
  *
- * With --raw FILE it writes the decoded samples themselves (16-bit big-endian) to stdout. */
+ * With --raw FILE it writes the decoded samples themselves (16-bit big-endian) to stdout.
+ * --library first (before --raw) decodes with the image library's own code only, not kiln's
+ * faster path for PNG image data (formats/decoders/png_idat.h), to compare the two; --trusted
+ * decodes as pack does after the SHA-256 matched (format checksums may be skipped). */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -73,8 +76,17 @@ static unsigned long identity_crc(const struct kiln_image *img, int bits, int ty
 
 int main(int argc, char **argv)
 {
-    const int raw = argc == 3 && strcmp(argv[1], "--raw") == 0;
-    for (int a = raw ? 2 : 1; a < argc; a++) {
+    int first = 1, library = 0, trusted = 0;
+    for (; first < argc; first++) {
+        if (strcmp(argv[first], "--library") == 0)
+            library = 1;
+        else if (strcmp(argv[first], "--trusted") == 0)
+            trusted = 1;
+        else
+            break;
+    }
+    const int raw = argc == first + 2 && strcmp(argv[first], "--raw") == 0;
+    for (int a = raw ? first + 1 : first; a < argc; a++) {
         const char *name = strrchr(argv[a], '/') ? strrchr(argv[a], '/') + 1 : argv[a];
         uint8_t *data;
         size_t size;
@@ -90,8 +102,11 @@ int main(int argc, char **argv)
         int rc = dec ? dec->read_info(data, size, NULL, &info, &err) : -1;
         if (rc == 0 && (uint64_t)info.width * info.height > (1ull << 28))
             rc = KILN_ETOOLARGE;
-        if (rc == 0)
+        if (rc == 0) {
+            info.library_only = (uint32_t)library;
+            info.trusted = (uint32_t)trusted;
             rc = kiln_decoded_shape(&info, 1, &img, &err);
+        }
         if (rc == 0)
             rc = dec->decode(data, size, &info, 1, &img, &err);
         if (rc) {

@@ -1,0 +1,144 @@
+/* IDAT gathering, inflate (libdeflate) and unfiltering (PNG specification, section 9:
+ * filter types None, Sub, Up, Average, Paeth on bytes, bpp = bytes per complete pixel). */
+#include "png_idat.h"
+
+#include <libdeflate.h>
+#include <stdlib.h>
+#include <string.h>
+
+static uint32_t be32(const uint8_t *p)
+{
+    return (uint32_t)p[0] << 24 | (uint32_t)p[1] << 16 | (uint32_t)p[2] << 8 | p[3];
+}
+
+/* The run of IDAT chunks: the first one's data (*one, *one_len) when there is only one, else
+ * their data concatenated into *joined (malloc'ed). Returns 0, 1 (decline) or -1 (memory). */
+static int gather(const uint8_t *d, size_t len, int trusted, const uint8_t **one, size_t *one_len,
+                  uint8_t **joined)
+{
+    size_t pos = 8, first = 0, total = 0, count = 0;
+    *joined = NULL;
+    for (int seen_end = 0; !seen_end;) {
+        if (len - pos < 12)
+            return 1;
+        const uint32_t n = be32(d + pos);
+        if (n > 0x7fffffffu || len - pos - 12 < n)
+            return 1;
+        const int idat = memcmp(d + pos + 4, "IDAT", 4) == 0;
+        if (idat) {
+            if (!trusted && libdeflate_crc32(0, d + pos + 4, (size_t)n + 4) != be32(d + pos + 8 + n))
+                return 1;
+            if (!count++)
+                first = pos;
+            total += n;
+        } else if (count) {
+            seen_end = 1; /* the run is over (the specification keeps IDATs together) */
+        } else if (memcmp(d + pos + 4, "IEND", 4) == 0) {
+            return 1;
+        }
+        pos += 12 + (size_t)n;
+    }
+    if (count == 1) {
+        *one = d + first + 8;
+        *one_len = total;
+        return 0;
+    }
+    uint8_t *buf = malloc(total ? total : 1);
+    if (!buf)
+        return -1;
+    size_t at = 0;
+    for (pos = first; at < total; pos += 12 + (size_t)be32(d + pos)) {
+        const uint32_t n = be32(d + pos);
+        memcpy(buf + at, d + pos + 8, n);
+        at += n;
+    }
+    *one = *joined = buf;
+    *one_len = total;
+    return 0;
+}
+
+static uint8_t paeth(uint8_t a, uint8_t b, uint8_t c)
+{
+    const int p = a + b - c, pa = abs(p - a), pb = abs(p - b), pc = abs(p - c);
+    if (pa <= pb && pa <= pc)
+        return a;
+    return pb <= pc ? b : c;
+}
+
+/* Unfilters row (n bytes after its filter byte f) against prev (NULL for the first row). */
+static int unfilter(uint8_t f, uint8_t *row, const uint8_t *prev, size_t n, size_t bpp)
+{
+    switch (f) {
+    case 0:
+        return 0;
+    case 1:
+        for (size_t i = bpp; i < n; i++)
+            row[i] = (uint8_t)(row[i] + row[i - bpp]);
+        return 0;
+    case 2:
+        if (prev)
+            for (size_t i = 0; i < n; i++)
+                row[i] = (uint8_t)(row[i] + prev[i]);
+        return 0;
+    case 3:
+        for (size_t i = 0; i < n; i++) {
+            const unsigned left = i >= bpp ? row[i - bpp] : 0, up = prev ? prev[i] : 0;
+            row[i] = (uint8_t)(row[i] + ((left + up) >> 1));
+        }
+        return 0;
+    case 4:
+        for (size_t i = 0; i < n; i++) {
+            const uint8_t left = i >= bpp ? row[i - bpp] : 0, up = prev ? prev[i] : 0,
+                          corner = prev && i >= bpp ? prev[i - bpp] : 0;
+            row[i] = (uint8_t)(row[i] + paeth(left, up, corner));
+        }
+        return 0;
+    default:
+        return 1;
+    }
+}
+
+int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_layout *l,
+                         uint8_t *out, size_t stride)
+{
+    const size_t bpp = (size_t)l->channels * (l->depth / 8);
+    if ((l->depth != 8 && l->depth != 16) || l->channels < 1 || l->channels > 4 ||
+        stride != (size_t)l->width * bpp || l->height == 0 || l->width == 0 ||
+        (size_t)l->height > KILN_PNG_IDAT_MAX / (stride + 1))
+        return 1;
+    const size_t need = (size_t)l->height * (stride + 1);
+    const uint8_t *z;
+    size_t zlen;
+    uint8_t *joined;
+    int rc = gather(data, len, l->trusted, &z, &zlen, &joined);
+    if (rc)
+        return rc;
+    uint8_t *raw = malloc(need);
+    struct libdeflate_decompressor *dec = raw ? libdeflate_alloc_decompressor() : NULL;
+    if (!raw || !dec) {
+        free(raw);
+        free(joined);
+        return -1;
+    }
+    /* Exactly the rows' size: a stream that is shorter or longer is libpng's to judge. */
+    rc = libdeflate_zlib_decompress(dec, z, zlen, raw, need, NULL) == LIBDEFLATE_SUCCESS ? 0 : 1;
+    libdeflate_free_decompressor(dec);
+    free(joined);
+    const uint16_t one = 1;
+    const int swap = l->depth == 16 && *(const uint8_t *)&one == 1;
+    for (uint32_t y = 0; y < l->height && !rc; y++) {
+        uint8_t *row = raw + (size_t)y * (stride + 1);
+        rc = unfilter(row[0], row + 1, y ? row - stride : NULL, stride, bpp);
+        uint8_t *dst = out + (size_t)y * stride;
+        if (!swap) {
+            memcpy(dst, row + 1, stride);
+            continue;
+        }
+        for (size_t i = 0; i < stride; i += 2) {
+            dst[i] = row[1 + i + 1];
+            dst[i + 1] = row[1 + i];
+        }
+    }
+    free(raw);
+    return rc;
+}
