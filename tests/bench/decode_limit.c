@@ -2,11 +2,13 @@
  * kiln's own decoders, at the JPEG DCT reduction pack would use for the given size, on N
  * threads, and does nothing else. kiln pack and build are measured against this.
  *
- *   kiln-bench-decode DIR WxH JOBS [--full] [--trusted]
+ *   kiln-bench-decode DIR WxH JOBS [--full] [--trusted] [--library]
  *
  * --full: no DCT reduction, as scan decodes. --trusted: skip the formats' own checksums (PNG
  * CRC-32 and Adler-32), as pack does once a file's SHA-256 matched; without it, checksums are
- * verified, as scan and build must. */
+ * verified, as scan and build must. --library: the image libraries' own code only (libpng with
+ * zlib for PNG image data instead of kiln's libdeflate path): the limit "with the standard
+ * libraries" the benchmark also reports. */
 #include <ftw.h>
 #include <pthread.h>
 #include <stdatomic.h>
@@ -50,6 +52,7 @@ struct limit_run {
     struct kiln_recipe recipe;
     int full;    /* no DCT reduction, as scan decodes */
     int trusted; /* skip the formats' own checksums, as pack does after its SHA-256 check */
+    int library; /* the libraries' own decoding only */
     atomic_size_t next, decoded, failed;
 };
 
@@ -75,6 +78,7 @@ static void *limit_worker(void *arg)
                                                             info.orientation, info.max_scale_denom);
             rc = kiln_decoded_shape(&info, d, &img, &err);
             info.trusted = (uint32_t)run->trusted;
+            info.library_only = (uint32_t)run->library;
             if (rc == 0)
                 rc = dec->decode(data, size, &info, d, &img, &err);
         }
@@ -88,7 +92,7 @@ static void *limit_worker(void *arg)
 int main(int argc, char **argv)
 {
     if (argc < 4) {
-        fprintf(stderr, "usage: kiln-bench-decode DIR WxH JOBS [--full] [--trusted]\n");
+        fprintf(stderr, "usage: kiln-bench-decode DIR WxH JOBS [--full] [--trusted] [--library]\n");
         return 2;
     }
     struct limit_run run;
@@ -105,6 +109,8 @@ int main(int argc, char **argv)
             run.full = 1;
         else if (strcmp(argv[a], "--trusted") == 0)
             run.trusted = 1;
+        else if (strcmp(argv[a], "--library") == 0)
+            run.library = 1;
         else
             return 2;
     }

@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
-# Side by side (a benchmark, not a test): kiln build against the decode-only limit and the
-# scripts a practitioner would write, on the same files and cores, in rounds that alternate the
+# Side by side (a benchmark, not a test): kiln build against the decode-only limit (with the
+# standard libraries alone, libjpeg-turbo and libpng/zlib, and with kiln's decoders, which
+# inflate PNG image data with libdeflate) and the scripts a practitioner would write, on the same files and cores, in rounds that alternate the
 # systems so that a slow moment of the machine hits all of them.
 #
 #   bash tests/bench/versus.sh SET BUILD_DIR [ROUNDS]
@@ -20,9 +21,10 @@ work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 SIZE=128x128
 
-names=(build decode-limit pool-pil one-process-pil)
+names=(build decode-std-libs decode-kiln pool-pil one-process-pil)
 cmds=(
     "rm -rf '$work/k' && '$b/kiln' build '$set_dir' -o '$work/k' -q --seed 1 --size $SIZE --jobs $jobs"
+    "'$b/tests/kiln-bench-decode' '$set_dir' $SIZE $jobs --library"
     "'$b/tests/kiln-bench-decode' '$set_dir' $SIZE $jobs"
     "rm -rf '$work/p' && $py '$here/tests/bench/alternative_pool.py' '$set_dir' '$work/p' 1 $jobs pil"
     "rm -rf '$work/a' && $py '$here/tests/bench/alternative.py' '$set_dir' '$work/a' 1"
