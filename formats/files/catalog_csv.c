@@ -172,15 +172,10 @@ int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_
 int kiln_catalog_csv_save(const char *path, const struct kiln_catalog *cat, struct kiln_err *err)
 {
     struct kiln_outfile of;
-    int rc = kiln_outfile_open(&of, path, err);
-    if (rc)
-        return rc;
-    FILE *f = kiln_outfile_stream(&of, err);
-    if (!f) {
-        kiln_outfile_abort(&of);
-        return KILN_EWRITE;
-    }
-    rc = kiln_catalog_csv_write(f, cat, err);
+    FILE *f = kiln_outfile_open_stream(&of, path, err);
+    if (!f)
+        return err->code;
+    int rc = kiln_catalog_csv_write(f, cat, err);
     if (rc) {
         const int e = errno; /* the stream's failure, kept by kiln_catalog_csv_write */
         kiln_outfile_abort(&of);

@@ -52,14 +52,9 @@ int kiln_items_csv_save(const char *path, const struct kiln_catalog *cat,
                         const size_t records[KILN_NSPLITS], struct kiln_err *err)
 {
     struct kiln_outfile of;
-    int rc = kiln_outfile_open(&of, path, err);
-    if (rc)
-        return rc;
-    FILE *f = kiln_outfile_stream(&of, err);
-    if (!f) {
-        kiln_outfile_abort(&of);
-        return KILN_EWRITE;
-    }
+    FILE *f = kiln_outfile_open_stream(&of, path, err);
+    if (!f)
+        return err->code;
     static const char *const cols[] = {"row",   "source", "path",  "member", "size",
                                        "sha256", "label", "class", "group",  "unit",
                                        "split", "index",  "status", "reason"};

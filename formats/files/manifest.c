@@ -930,14 +930,9 @@ int kiln_manifest_save_sums(const char *path, const struct kiln_manifest_output 
                             struct kiln_err *err)
 {
     struct kiln_outfile of;
-    int rc = kiln_outfile_open(&of, path, err);
-    if (rc)
-        return rc;
-    FILE *f = kiln_outfile_stream(&of, err);
-    if (!f) {
-        kiln_outfile_abort(&of);
-        return KILN_EWRITE;
-    }
+    FILE *f = kiln_outfile_open_stream(&of, path, err);
+    if (!f)
+        return err->code;
     for (size_t i = 0; i < n; i++)
         fprintf(f, "%s  %s\n", out[i].sha256, out[i].name);
     return kiln_outfile_commit(&of, err);

@@ -166,6 +166,17 @@ FILE *kiln_outfile_stream(struct kiln_outfile *of, struct kiln_err *err)
     return of->f;
 }
 
+FILE *kiln_outfile_open_stream(struct kiln_outfile *of, const char *final_path,
+                               struct kiln_err *err)
+{
+    if (kiln_outfile_open(of, final_path, err))
+        return NULL;
+    FILE *f = kiln_outfile_stream(of, err);
+    if (!f)
+        kiln_outfile_abort(of);
+    return f;
+}
+
 int kiln_fsync_dir(const char *dir, struct kiln_err *err)
 {
     int fd = open(dir, O_RDONLY | O_DIRECTORY | O_CLOEXEC);

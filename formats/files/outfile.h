@@ -26,6 +26,10 @@ int kiln_outfile_open(struct kiln_outfile *of, const char *final_path, struct ki
 bool kiln_outfile_is_temp_name(const char *name, const char *base, long *pid);
 /* Gives a stdio stream on the file (owned by of). */
 FILE *kiln_outfile_stream(struct kiln_outfile *of, struct kiln_err *err);
+/* For text writers: kiln_outfile_open and kiln_outfile_stream in one; NULL after setting err,
+ * with nothing left behind. */
+FILE *kiln_outfile_open_stream(struct kiln_outfile *of, const char *final_path,
+                               struct kiln_err *err);
 /* Writes a whole buffer at an offset, retrying short writes; a failure is KILN_EWRITE naming
  * the final name ("cannot write OUT/train.kten: No space left on device"). Safe from several
  * threads for disjoint ranges. */

@@ -599,14 +599,9 @@ static void skipped_section(FILE *f, const struct kiln_report *r)
 int kiln_report_html_save(const char *path, const struct kiln_report *r, struct kiln_err *err)
 {
     struct kiln_outfile of;
-    int rc = kiln_outfile_open(&of, path, err);
-    if (rc)
-        return rc;
-    FILE *f = kiln_outfile_stream(&of, err);
-    if (!f) {
-        kiln_outfile_abort(&of);
-        return KILN_EWRITE;
-    }
+    FILE *f = kiln_outfile_open_stream(&of, path, err);
+    if (!f)
+        return err->code;
     head(f, r);
     summary(f, r);
     balance_section(f, r);
