@@ -508,25 +508,6 @@ static void samples_section(FILE *f, const struct kiln_report *r)
     }
 }
 
-/* The evidence of a near-duplicate link: its scalar members. */
-static void evidence(FILE *f, const json_t *link)
-{
-    const char *key;
-    const json_t *v;
-    fputs("<table class=\"kv\">\n", f);
-    json_object_foreach((json_t *)link, key, v)
-    {
-        if (json_is_object(v) || json_is_array(v))
-            continue; /* the items, shown as pictures */
-        fputs("<tr><th>", f);
-        kiln_html_text(f, key);
-        fputs("</th><td>", f);
-        json_value(f, v);
-        fputs("</td></tr>\n", f);
-    }
-    fputs("</table>\n", f);
-}
-
 static void audit_section(FILE *f, const struct kiln_report *r)
 {
     const json_t *audit = get(r->manifest, "audit");
@@ -559,8 +540,9 @@ static void audit_section(FILE *f, const struct kiln_report *r)
         for (size_t j = 0; j < fd->nitems; j++)
             thumb(f, &fd->items[j]);
         fputs("</div>\n", f);
+        static const char *const shown[] = {"items", NULL}; /* as pictures, above */
         if (fd->link)
-            evidence(f, fd->link);
+            key_values(f, fd->link, shown);
         fputs("</div>\n", f);
     }
     if (r->findings_not_listed)

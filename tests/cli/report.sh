@@ -81,6 +81,37 @@ assert "train" in f[0] and "test" in f[0], "splits not named"
 assert 'class="bad">audit: 1 finding' in s
 EOF
 
+# A possible near duplicate in two splits (a resized copy filed under another class, so the
+# unit rule keeps it apart): the finding shows both pictures and the evidence.
+mkdir -p "$work/nd/a" "$work/nd/b"
+for f in $(find "$work/data/crawling" -name 'T010*_a.jpg' | sort); do cp "$f" "$work/nd/a/"; done
+for f in $(find "$work/data/sound" -name 'T016*_a.jpg' | sort); do cp "$f" "$work/nd/b/"; done
+orig=$(first_file "$work/nd/a/" -name '*.jpg')
+"$PYTHON" -c "
+import sys
+from PIL import Image
+im = Image.open(sys.argv[1])
+im.resize((im.width * 3 // 4, im.height * 3 // 4)).save(sys.argv[2], quality=90)" \
+    "$orig" "$work/nd/b/copy.jpg"
+expect_exit 0 "$KILN" scan "$work/nd" -o "$work/nd.csv" -q
+expect_exit 0 "$KILN" split "$work/nd.csv" --seed 3 --ratios 50:50 -q
+expect_exit 0 "$KILN" pack "$work/nd.csv" -o "$work/ndout" --size 32 -q
+expect_exit 0 "$KILN" report "$work/ndout" -o "$work/nd.html"
+"$PYTHON" "$check" "$work/nd.html" "$work/ndout" || fail "near-duplicate report"
+"$PYTHON" - "$work/nd.html" "$work/ndout/manifest.json" <<'EOF' || fail "the near-duplicate finding"
+import json, re, sys
+s = open(sys.argv[1], encoding="utf-8").read()
+m = json.load(open(sys.argv[2], encoding="utf-8"))
+kinds = [f["kind"] for f in m["audit"]["findings"]]
+f = re.findall(r'<div class="finding"><p><b>near-duplicate</b>.*?</table>\n</div>', s, re.S)
+assert len(f) == kinds.count("near-duplicate") >= 1, (len(f), kinds)
+assert f[0].count("<img ") == 2, "not both pictures"
+link = m["audit"]["findings"][kinds.index("near-duplicate")]["link"]
+for key in ("similarity", "distance", "unit_rule"):
+    assert f"<th>{key}</th>" in f[0], f"evidence {key} missing"
+assert str(link["distance"]) in f[0]
+EOF
+
 # A damaged output: verify's problem is in the page, exit 4; the page is still complete.
 cp -r "$work/out" "$work/bad"
 printf '\x01' | dd of="$work/bad/test.kten" bs=1 seek=5000 conv=notrunc status=none
