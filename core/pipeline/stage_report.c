@@ -337,23 +337,25 @@ static int finding_item(struct run *r, const json_t *item, struct kiln_report_th
 }
 
 /* The manifest's findings, each with the pictures of its items. */
-static int findings(struct run *r, struct kiln_err *err)
+/* The entries of a JSON list (the audit's findings, or the links the unit rule refused) into
+ * *out (*n of them), each with the pictures of its items. A finding names its kind and holds
+ * its link; a refused link is its own evidence and its kind is the unit rule's verdict. */
+static int read_findings(struct run *r, const json_t *list, bool links,
+                         struct kiln_report_finding **out, size_t *n, struct kiln_err *err)
 {
-    const json_t *audit = json_object_get(r->manifest, "audit"),
-                 *list = json_object_get(audit, "findings");
-    r->html.findings_not_listed =
-        (size_t)json_integer_value(json_object_get(audit, "findings_not_listed"));
-    const size_t n = json_is_array(list) ? json_array_size(list) : 0;
-    r->html.findings = kiln_alloc_array(n ? n : 1, sizeof *r->html.findings);
-    if (!r->html.findings)
+    const size_t total = json_is_array(list) ? json_array_size(list) : 0;
+    *n = 0;
+    *out = kiln_alloc_array(total ? total : 1, sizeof **out);
+    if (!*out)
         return kiln_err_set(err, KILN_ENOMEM, "out of memory");
-    int rc = index_names(r, err);
-    for (size_t k = 0; k < n && !rc; k++) {
+    int rc = KILN_OK;
+    for (size_t k = 0; k < total && !rc; k++) {
         const json_t *f = json_array_get(list, k), *items = json_object_get(f, "items");
-        struct kiln_report_finding *fd = &r->html.findings[r->html.nfindings++];
+        struct kiln_report_finding *fd = &(*out)[(*n)++];
         memset(fd, 0, sizeof *fd);
-        fd->kind = kiln_json_str(f, "kind") ? kiln_json_str(f, "kind") : "?";
-        fd->link = json_object_get(f, "link");
+        const char *kind = kiln_json_str(f, links ? "unit_rule" : "kind");
+        fd->kind = kind ? kind : "?";
+        fd->link = links ? f : json_object_get(f, "link");
         const size_t m = json_is_array(items) ? json_array_size(items) : 0;
         fd->items = kiln_alloc_array(m ? m : 1, sizeof *fd->items);
         if (!fd->items)
@@ -362,6 +364,26 @@ static int findings(struct run *r, struct kiln_err *err)
         for (size_t j = 0; j < m && !rc; j++, fd->nitems++)
             rc = finding_item(r, json_array_get(items, j), &fd->items[j], err);
     }
+    return rc;
+}
+
+/* The audit's findings, and the near-duplicate links the unit rule refused (possible copies
+ * filed under two labels), as manifest.json lists them. */
+static int findings(struct run *r, struct kiln_err *err)
+{
+    const json_t *audit = json_object_get(r->manifest, "audit"),
+                 *near = json_object_get(json_object_get(r->manifest, "split"), "near_duplicates");
+    struct kiln_report *h = &r->html;
+    h->findings_not_listed =
+        (size_t)json_integer_value(json_object_get(audit, "findings_not_listed"));
+    h->refused_not_listed = (size_t)json_integer_value(json_object_get(near, "refused_not_listed"));
+    int rc = index_names(r, err);
+    if (!rc)
+        rc = read_findings(r, json_object_get(audit, "findings"), false, &h->findings,
+                           &h->nfindings, err);
+    if (!rc)
+        rc = read_findings(r, json_object_get(near, "refused"), true, &h->refused, &h->nrefused,
+                           err);
     return rc;
 }
 
@@ -419,6 +441,9 @@ static void run_free(struct run *r)
     for (size_t k = 0; k < h->nfindings; k++)
         free_thumbs(h->findings[k].items, h->findings[k].nitems);
     free(h->findings);
+    for (size_t k = 0; k < h->nrefused; k++)
+        free_thumbs(h->refused[k].items, h->refused[k].nitems);
+    free(h->refused);
     for (size_t k = 0; k < h->nskipped; k++)
         free(h->skipped[k].name), free(h->skipped[k].reason);
     free(h->skipped);

@@ -168,6 +168,14 @@ static void summary(FILE *f, const struct kiln_report *r)
         fprintf(f, "<li class=\"bad\">audit: %zu finding%s (see Audit)</li>\n",
                 r->nfindings + r->findings_not_listed,
                 r->nfindings + r->findings_not_listed == 1 ? "" : "s");
+    const size_t missing = json_array_size(get(audit, "classes_missing"));
+    if (missing)
+        fprintf(f, "<li class=\"bad\">%zu class%s missing from a split (see Audit)</li>\n",
+                missing, missing == 1 ? "" : "es");
+    if (r->nrefused)
+        fprintf(f, "<li class=\"warn\">%zu possible cop%s kept apart by the unit rule, e.g. "
+                "filed under two labels (see Audit)</li>\n", r->nrefused + r->refused_not_listed,
+                r->nrefused + r->refused_not_listed == 1 ? "y" : "ies");
     if (r->shortcuts && r->shortcuts->fired)
         fprintf(f, "<li class=\"bad\">shortcut check: %zu attribute%s predict%s the label "
                 "(see Attributes)</li>\n", r->shortcuts->fired, r->shortcuts->fired == 1 ? "" : "s",
@@ -508,6 +516,21 @@ static void samples_section(FILE *f, const struct kiln_report *r)
     }
 }
 
+/* One finding or refused link: its kind, its items' pictures side by side, its evidence. */
+static void finding(FILE *f, const struct kiln_report_finding *fd)
+{
+    fputs("<div class=\"finding\"><p><b>", f);
+    kiln_html_text(f, fd->kind);
+    fprintf(f, "</b>: %zu items</p>\n<div class=\"thumbs\">\n", fd->nitems);
+    for (size_t j = 0; j < fd->nitems; j++)
+        thumb(f, &fd->items[j]);
+    fputs("</div>\n", f);
+    static const char *const shown[] = {"items", NULL}; /* as pictures, above */
+    if (fd->link)
+        key_values(f, fd->link, shown);
+    fputs("</div>\n", f);
+}
+
 static void audit_section(FILE *f, const struct kiln_report *r)
 {
     const json_t *audit = get(r->manifest, "audit");
@@ -531,23 +554,23 @@ static void audit_section(FILE *f, const struct kiln_report *r)
     if (!r->nfindings)
         fputs("<p class=\"ok\" id=\"audit-clean\">No finding: nothing spans two splits.</p>\n",
               f);
-    for (size_t k = 0; k < r->nfindings; k++) {
-        const struct kiln_report_finding *fd = &r->findings[k];
-        fputs("<div class=\"finding\"><p><b>", f);
-        kiln_html_text(f, fd->kind);
-        fprintf(f, "</b>: %zu items in more than one split</p>\n<div class=\"thumbs\">\n",
-                fd->nitems);
-        for (size_t j = 0; j < fd->nitems; j++)
-            thumb(f, &fd->items[j]);
-        fputs("</div>\n", f);
-        static const char *const shown[] = {"items", NULL}; /* as pictures, above */
-        if (fd->link)
-            key_values(f, fd->link, shown);
-        fputs("</div>\n", f);
-    }
+    for (size_t k = 0; k < r->nfindings; k++)
+        finding(f, &r->findings[k]);
     if (r->findings_not_listed)
         fprintf(f, "<p>%zu more findings are counted, not listed, in manifest.json; "
                 "<code>kiln audit</code> lists them all.</p>\n", r->findings_not_listed);
+    if (!r->nrefused)
+        return;
+    fputs("<h3 id=\"kept-apart\">Possible copies kept apart</h3>\n<p>Near-duplicate links that "
+          "passed the pixel check but that the unit rule refused, because they would have "
+          "joined different labels or too many pictures (docs/near-duplicates.md). The units "
+          "stay apart, so such a pair may sit in two splits; a picture filed under two classes "
+          "is a labelling question worth a look.</p>\n", f);
+    for (size_t k = 0; k < r->nrefused; k++)
+        finding(f, &r->refused[k]);
+    if (r->refused_not_listed)
+        fprintf(f, "<p>%zu more refused links are counted, not listed, in manifest.json.</p>\n",
+                r->refused_not_listed);
 }
 
 static void skipped_section(FILE *f, const struct kiln_report *r)

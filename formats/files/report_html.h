@@ -73,6 +73,10 @@ struct kiln_report {
     size_t per_class;               /* thumbnails asked per class and split */
     struct kiln_report_finding *findings;
     size_t nfindings, findings_not_listed;
+    /* Near-duplicate links the unit rule refused (the split record's "refused"): kind is the
+     * verdict ("refused: different labels"), link the evidence. */
+    struct kiln_report_finding *refused;
+    size_t nrefused, refused_not_listed;
     struct kiln_report_skipped *skipped;
     size_t nskipped;
 };

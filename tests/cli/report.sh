@@ -110,6 +110,13 @@ link = m["audit"]["findings"][kinds.index("near-duplicate")]["link"]
 for key in ("similarity", "distance", "unit_rule"):
     assert f"<th>{key}</th>" in f[0], f"evidence {key} missing"
 assert str(link["distance"]) in f[0]
+# The same link, refused by the unit rule (different labels), among the copies kept apart.
+refused = m["split"]["near_duplicates"]["refused"]
+kept = re.findall(r'<div class="finding"><p><b>refused: different labels</b>.*?</table>\n</div>',
+                  s, re.S)
+assert len(refused) >= 1 and len(kept) == len(refused), (len(kept), len(refused))
+assert kept[0].count("<img ") == 2 and 'id="kept-apart"' in s
+assert "possible copy kept apart" in s or "possible copies kept apart" in s
 EOF
 
 # A damaged output: verify's problem is in the page, exit 4; the page is still complete.
