@@ -147,7 +147,10 @@ void kiln_csv_field(FILE *f, const char *s, int first)
 {
     if (!first)
         putc(',', f);
-    if (strpbrk(s, ",\"\r\n") == NULL) {
+    /* A field starting with a UTF-8 byte-order mark is quoted too: written first in a file,
+     * unquoted, it would be read back (here and by spreadsheet programs) as the file's mark and
+     * dropped. */
+    if (strpbrk(s, ",\"\r\n") == NULL && strncmp(s, "\xef\xbb\xbf", 3) != 0) {
         fputs(s, f);
         return;
     }
