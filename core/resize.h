@@ -67,6 +67,13 @@ int kiln_resize_axis_init(struct kiln_resize_axis *ax, uint32_t in_size, uint32_
                           int filter, struct kiln_err *err);
 void kiln_resize_axis_free(struct kiln_resize_axis *ax);
 
+/* The 8-bit RGB vector kernel's weight layout for one axis: each coefficient split as
+ * hi * 2^15 + lo (lo in [0, 2^15), so both fit 16 bits), four taps per 32-byte vector. */
+struct kiln_resize_wide {
+    int16_t *w;      /* per output: groups x 2 vectors of 16 int16 (lo, then hi) */
+    uint32_t groups; /* whole groups of 4 taps per output (ksize / 4) */
+};
+
 /* Per-worker resampler: caches the last coefficient tables (consecutive images often share a
  * size) and scratch buffers. Not shared between threads. */
 struct kiln_resizer {
@@ -81,6 +88,11 @@ struct kiln_resizer {
     uint32_t rows_w, rows_h, rows_y0, rows_y1;
     unsigned rows_channels, rows_depth;
     bool rows_need_x, rows_need_y;
+    /* Vector kernels (core/resize_simd.h): used when simd is true, which kiln_resizer_init
+     * sets when the processor has them (the tests clear it to compare with the scalar path).
+     * wide is the horizontal axis's weight table for them, built on first use. */
+    bool simd;
+    struct kiln_resize_wide wide;
 };
 
 void kiln_resizer_init(struct kiln_resizer *r);
