@@ -8,6 +8,10 @@
 #include <stdlib.h>
 #include <string.h>
 
+#if defined(__x86_64__) || defined(__i386__)
+#include <immintrin.h>
+#endif
+
 #define G KILN_NEARFP_GRID
 #define S KILN_NEARFP_SIDE
 #define NCELL (S * S)
@@ -125,6 +129,12 @@ static void row_values(const struct kiln_image *img, const uint8_t *line, uint32
             lum[x] = line[x];
         return;
     }
+    if (img->depth == 16 && img->channels == 1) {
+        const uint16_t *p = (const uint16_t *)(const void *)line;
+        for (uint32_t x = 0; x < W; x++)
+            lum[x] = p[x];
+        return;
+    }
     if (img->depth == 8 && img->channels == 3) {
         for (uint32_t x = 0; x < W; x++) {
             const uint32_t r = line[3 * x], g = line[3 * x + 1], b = line[3 * x + 2];
@@ -181,6 +191,96 @@ static inline uint64_t run_sum(const struct axis_runs *r, unsigned c, const uint
     return 32 * inner + (uint64_t)r->wf[c] * v[f] + (uint64_t)r->wl[c] * v[l];
 }
 
+/* 8-bit RGB luma as everywhere in this module: (299r + 587g + 114b + 500) div 1000. */
+static inline uint32_t luma8(const uint8_t *p)
+{
+    return (299u * p[0] + 587u * p[1] + 114u * p[2] + 500u) / 1000u;
+}
+
+/* Sums of luma, r, g and b over pixels [x0, x1) of an 8-bit RGB row. */
+static void rgb8_sums_scalar(const uint8_t *line, uint32_t x0, uint32_t x1, uint64_t s[4])
+{
+    uint64_t sl = 0, sr = 0, sg = 0, sb = 0;
+    for (uint32_t x = x0; x < x1; x++) {
+        const uint8_t *p = line + (size_t)3 * x;
+        sl += luma8(p);
+        sr += p[0];
+        sg += p[1];
+        sb += p[2];
+    }
+    s[0] += sl, s[1] += sr, s[2] += sg, s[3] += sb;
+}
+
+#if defined(__x86_64__) || defined(__i386__)
+/* The same eight pixels at a time. The division by 1000 is floor(floor(t / 8) * 33555 / 2^22),
+ * equal for every t up to 255 500 (checked exhaustively by test_grid in test_nearfp.c); the
+ * 32-bit lane sums cannot wrap: a cell's run is under 2^27 pixels, 2^24 per lane, x 255. */
+__attribute__((target("avx2"))) static void rgb8_sums_avx2(const uint8_t *line, uint32_t x0,
+                                                           uint32_t x1, uint64_t s[4])
+{
+    const __m256i spread = _mm256_setr_epi32(0, 1, 2, 3, 3, 4, 5, 6);
+    const __m256i mr = _mm256_setr_epi8(0, -1, -1, -1, 3, -1, -1, -1, 6, -1, -1, -1, 9, -1, -1, -1,
+                                        0, -1, -1, -1, 3, -1, -1, -1, 6, -1, -1, -1, 9, -1, -1, -1);
+    const __m256i mg = _mm256_add_epi8(mr, _mm256_set1_epi32(1));
+    const __m256i mb = _mm256_add_epi8(mr, _mm256_set1_epi32(2));
+    __m256i al = _mm256_setzero_si256(), ar = al, ag = al, ab = al;
+    uint32_t x = x0;
+    /* 32 bytes are read for 24: stop while 11 pixels remain inside [x0, x1). */
+    for (; (uint64_t)x + 11 <= x1; x += 8) {
+        __m256i v = _mm256_loadu_si256((const __m256i *)(line + (size_t)3 * x));
+        v = _mm256_permutevar8x32_epi32(v, spread); /* pixels 4-7 to the high lane */
+        const __m256i r = _mm256_shuffle_epi8(v, mr), g = _mm256_shuffle_epi8(v, mg),
+                      b = _mm256_shuffle_epi8(v, mb);
+        __m256i t = _mm256_add_epi32(_mm256_mullo_epi32(r, _mm256_set1_epi32(299)),
+                                     _mm256_mullo_epi32(g, _mm256_set1_epi32(587)));
+        t = _mm256_add_epi32(t, _mm256_mullo_epi32(b, _mm256_set1_epi32(114)));
+        t = _mm256_srli_epi32(_mm256_add_epi32(t, _mm256_set1_epi32(500)), 3);
+        t = _mm256_srli_epi32(_mm256_mullo_epi32(t, _mm256_set1_epi32(33555)), 22);
+        al = _mm256_add_epi32(al, t);
+        ar = _mm256_add_epi32(ar, r);
+        ag = _mm256_add_epi32(ag, g);
+        ab = _mm256_add_epi32(ab, b);
+    }
+    const __m256i acc[4] = {al, ar, ag, ab};
+    for (int k = 0; k < 4; k++) {
+        uint32_t lane[8];
+        _mm256_storeu_si256((__m256i *)lane, acc[k]);
+        for (int j = 0; j < 8; j++)
+            s[k] += lane[j];
+    }
+    rgb8_sums_scalar(line, x, x1, s);
+}
+#endif
+
+/* Cell sums of one 8-bit RGB row when every cell is a run of pixels: the luma and colour
+ * values are summed straight from the row, in one pass instead of four over row_values'
+ * arrays (the common case of a fingerprint, so worth its own loop). */
+static void rgb8_row_cells(const struct axis_runs *xr, const uint8_t *line, int wide,
+                           uint64_t row[G], uint64_t crow[3][G])
+{
+    for (unsigned c = 0; c < G; c++) {
+        const uint32_t f = xr->first[c], l = xr->last[c];
+        const uint8_t *pf = line + (size_t)3 * f, *pl = line + (size_t)3 * l;
+        const uint64_t wf = xr->wf[c], wl = xr->wl[c];
+        if (f == l) {
+            row[c] = wf * luma8(pf);
+            for (int k = 0; k < 3; k++)
+                crow[k][c] = wf * pf[k];
+            continue;
+        }
+        uint64_t s[4] = {0, 0, 0, 0};
+#if defined(__x86_64__) || defined(__i386__)
+        if (wide)
+            rgb8_sums_avx2(line, f + 1, l, s);
+        else
+#endif
+            rgb8_sums_scalar(line, f + 1, l, s);
+        row[c] = 32 * s[0] + wf * luma8(pf) + wl * luma8(pl);
+        for (int k = 0; k < 3; k++)
+            crow[k][c] = 32 * s[k + 1] + wf * pf[k] + wl * pl[k];
+    }
+}
+
 /* The cells pixel t of an axis of N pixels meets, with weights: the general case. */
 static unsigned pixel_cells(uint64_t t, uint64_t N, uint32_t *cell, uint64_t *w)
 {
@@ -198,7 +298,8 @@ static unsigned pixel_cells(uint64_t t, uint64_t N, uint32_t *cell, uint64_t *w)
  * [32x, 32x + 32) and cell i covers [iW, iW + W) in units of 1/(32W) of the width, so every
  * weight is an integer overlap and each cell's weights sum to W (and H vertically). Returns
  * KILN_ENOMEM when the row buffers cannot be had. */
-static int grid_means(const struct kiln_image *img, int32_t g[G][G], int64_t rgb[3][G][G])
+static int grid_means(const struct kiln_image *img, int wide, int32_t g[G][G],
+                      int64_t rgb[3][G][G])
 {
     const uint64_t W = img->width, H = img->height;
     const int colour = img->channels >= 3;
@@ -214,14 +315,18 @@ static int grid_means(const struct kiln_image *img, int32_t g[G][G], int64_t rgb
         memset(csum, 0, sizeof csum);
     for (uint64_t y = 0; y < H; y++) {
         uint64_t row[G] = {0}, crow[3][G] = {{0}};
-        row_values(img, (const uint8_t *)img->data + y * img->stride, lum, px);
-        if (fast) {
+        const uint8_t *line = (const uint8_t *)img->data + y * img->stride;
+        if (fast && img->depth == 8 && img->channels == 3) {
+            rgb8_row_cells(&xr, line, wide, row, crow);
+        } else if (fast) {
+            row_values(img, line, lum, px);
             for (unsigned c = 0; c < G; c++) {
                 row[c] = run_sum(&xr, c, lum);
                 for (int k = 0; colour && k < 3; k++)
                     crow[k][c] = run_sum(&xr, c, px[k]);
             }
         } else {
+            row_values(img, line, lum, px);
             for (uint64_t x = 0; x < W; x++) {
                 uint32_t cell[G];
                 uint64_t w[G];
@@ -257,8 +362,8 @@ static int grid_means(const struct kiln_image *img, int32_t g[G][G], int64_t rgb
 }
 
 /* The grid (and colour grid, which the caller frees) of a valid image. */
-static int checked_grid(const struct kiln_image *img, int32_t g[G][G], int64_t (**rgb)[G][G],
-                        struct kiln_err *err)
+static int checked_grid(const struct kiln_image *img, int wide, int32_t g[G][G],
+                        int64_t (**rgb)[G][G], struct kiln_err *err)
 {
     if (!img || !img->data || img->width == 0 || img->height == 0 || img->channels < 1 ||
         img->channels > 4 || (img->depth != 8 && img->depth != 16))
@@ -268,7 +373,7 @@ static int checked_grid(const struct kiln_image *img, int32_t g[G][G], int64_t (
                             "%ux%u is too large for the near-duplicate fingerprint (2^40 pixels)",
                             img->width, img->height);
     *rgb = malloc(3 * sizeof **rgb);
-    if (!*rgb || grid_means(img, g, *rgb) != KILN_OK) {
+    if (!*rgb || grid_means(img, wide, g, *rgb) != KILN_OK) {
         free(*rgb);
         *rgb = NULL;
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate the fingerprint's grids");
@@ -276,11 +381,31 @@ static int checked_grid(const struct kiln_image *img, int32_t g[G][G], int64_t (
     return KILN_OK;
 }
 
+/* Whether this processor runs the AVX2 loop of the grid. */
+static int vector_unit(void)
+{
+#if defined(__x86_64__) || defined(__i386__)
+    return __builtin_cpu_supports("avx2");
+#else
+    return 0;
+#endif
+}
+
 int kiln_nearfp_grid(const struct kiln_image *img, int32_t grid[KILN_NEARFP_GRID][KILN_NEARFP_GRID],
                      struct kiln_err *err)
 {
+    return kiln_nearfp_grid_path(img, 1, grid, NULL, err);
+}
+
+int kiln_nearfp_grid_path(const struct kiln_image *img, int vector,
+                          int32_t grid[KILN_NEARFP_GRID][KILN_NEARFP_GRID],
+                          int64_t colour[3][KILN_NEARFP_GRID][KILN_NEARFP_GRID],
+                          struct kiln_err *err)
+{
     int64_t(*rgb)[G][G] = NULL;
-    int rc = checked_grid(img, grid, &rgb, err);
+    int rc = checked_grid(img, vector && vector_unit(), grid, &rgb, err);
+    if (!rc && colour)
+        memcpy(colour, rgb, 3 * sizeof *rgb);
     free(rgb);
     return rc;
 }
@@ -515,7 +640,7 @@ int kiln_nearfp_compute(const struct kiln_image *img, struct kiln_nearfp *fp,
     int32_t g[G][G];
     static_assert(G % KILN_NEARFP_HUE == 0, "colour regions are whole grid blocks");
     int64_t(*rgb)[G][G] = NULL;
-    int rc = checked_grid(img, g, &rgb, err);
+    int rc = checked_grid(img, vector_unit(), g, &rgb, err);
     if (rc)
         return rc;
     if (img->channels >= 3)

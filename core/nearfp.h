@@ -137,6 +137,13 @@ int kiln_nearfp_warp(unsigned w, unsigned *sx, unsigned *ox, unsigned *sy, unsig
  * scale, 1/16 units), with kiln_nearfp_compute's errors. */
 int kiln_nearfp_grid(const struct kiln_image *img, int32_t grid[KILN_NEARFP_GRID][KILN_NEARFP_GRID],
                      struct kiln_err *err);
+/* The same with the vector loop allowed (where the processor has it) or not, both of which
+ * must give the same grids, and the colour grids (cell means of r, g, b over white; zeros for
+ * grey) into colour unless NULL. */
+int kiln_nearfp_grid_path(const struct kiln_image *img, int vector,
+                          int32_t grid[KILN_NEARFP_GRID][KILN_NEARFP_GRID],
+                          int64_t colour[3][KILN_NEARFP_GRID][KILN_NEARFP_GRID],
+                          struct kiln_err *err);
 /* c[v][u] (u, v < 8): 2^28 times the unnormalised DCT-II, sum over the n x n block at
  * (from, from) of (g - block mean) cos(pi (2x+1) u / 2n) cos(pi (2y+1) v / 2n), with the cosines
  * rounded to 14 fractional bits; n is 32 (from 0) or 20 (from 6). */

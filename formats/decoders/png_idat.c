@@ -57,44 +57,61 @@ static int gather(const uint8_t *d, size_t len, int trusted, const uint8_t **one
     return 0;
 }
 
-static uint8_t paeth(uint8_t a, uint8_t b, uint8_t c)
+/* The Paeth predictor with the distances written as |b - c|, |a - c| and |a + b - 2c| (the same
+ * as |p - a|, |p - b|, |p - c| for p = a + b - c), which compilers turn into conditional moves. */
+static inline uint8_t paeth(int a, int b, int c)
 {
-    const int p = a + b - c, pa = abs(p - a), pb = abs(p - b), pc = abs(p - c);
-    if (pa <= pb && pa <= pc)
-        return a;
-    return pb <= pc ? b : c;
+    const int pa = abs(b - c), pb = abs(a - c), pc = abs(a + b - 2 * c);
+    return (uint8_t)(pa <= pb && pa <= pc ? a : pb <= pc ? b : c);
 }
 
-/* Unfilters row (n bytes after its filter byte f) against prev (NULL for the first row). */
-static int unfilter(uint8_t f, uint8_t *row, const uint8_t *prev, size_t n, size_t bpp)
+/* Unfilters row (n bytes, a whole number of bpp-byte pixels, after its filter byte f) against
+ * prev (zeros for the first row). Inlined once per pixel size, so the left and upper-left pixel
+ * stay in registers through Sub, Average and Paeth, whose every byte waits on its left one. */
+static inline __attribute__((always_inline)) int unfilter_bpp(uint8_t f, uint8_t *row,
+                                                              const uint8_t *prev, size_t n,
+                                                              const size_t bpp)
 {
+    uint8_t left[8] = {0}, corner[8] = {0};
     switch (f) {
     case 0:
         return 0;
     case 1:
-        for (size_t i = bpp; i < n; i++)
-            row[i] = (uint8_t)(row[i] + row[i - bpp]);
+        for (size_t i = 0; i < n; i += bpp)
+            for (size_t k = 0; k < bpp; k++)
+                row[i + k] = left[k] = (uint8_t)(row[i + k] + left[k]);
         return 0;
     case 2:
-        if (prev)
-            for (size_t i = 0; i < n; i++)
-                row[i] = (uint8_t)(row[i] + prev[i]);
+        for (size_t i = 0; i < n; i++)
+            row[i] = (uint8_t)(row[i] + prev[i]);
         return 0;
     case 3:
-        for (size_t i = 0; i < n; i++) {
-            const unsigned left = i >= bpp ? row[i - bpp] : 0, up = prev ? prev[i] : 0;
-            row[i] = (uint8_t)(row[i] + ((left + up) >> 1));
-        }
+        for (size_t i = 0; i < n; i += bpp)
+            for (size_t k = 0; k < bpp; k++)
+                row[i + k] = left[k] = (uint8_t)(row[i + k] + ((left[k] + prev[i + k]) >> 1));
         return 0;
     case 4:
-        for (size_t i = 0; i < n; i++) {
-            const uint8_t left = i >= bpp ? row[i - bpp] : 0, up = prev ? prev[i] : 0,
-                          corner = prev && i >= bpp ? prev[i - bpp] : 0;
-            row[i] = (uint8_t)(row[i] + paeth(left, up, corner));
-        }
+        for (size_t i = 0; i < n; i += bpp)
+            for (size_t k = 0; k < bpp; k++) {
+                const uint8_t up = prev[i + k];
+                row[i + k] = left[k] = (uint8_t)(row[i + k] + paeth(left[k], up, corner[k]));
+                corner[k] = up;
+            }
         return 0;
     default:
         return 1;
+    }
+}
+
+static int unfilter(uint8_t f, uint8_t *row, const uint8_t *prev, size_t n, size_t bpp)
+{
+    switch (bpp) {
+    case 1: return unfilter_bpp(f, row, prev, n, 1);
+    case 2: return unfilter_bpp(f, row, prev, n, 2);
+    case 3: return unfilter_bpp(f, row, prev, n, 3);
+    case 4: return unfilter_bpp(f, row, prev, n, 4);
+    case 6: return unfilter_bpp(f, row, prev, n, 6);
+    default: return unfilter_bpp(f, row, prev, n, 8);
     }
 }
 
@@ -114,9 +131,11 @@ int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_
     if (rc)
         return rc;
     uint8_t *raw = malloc(need);
-    struct libdeflate_decompressor *dec = raw ? libdeflate_alloc_decompressor() : NULL;
-    if (!raw || !dec) {
+    uint8_t *zero = calloc(stride, 1); /* the row above the first (PNG specification 9.2) */
+    struct libdeflate_decompressor *dec = raw && zero ? libdeflate_alloc_decompressor() : NULL;
+    if (!raw || !zero || !dec) {
         free(raw);
+        free(zero);
         free(joined);
         return -1;
     }
@@ -128,7 +147,7 @@ int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_
     const int swap = l->depth == 16 && *(const uint8_t *)&one == 1;
     for (uint32_t y = 0; y < l->height && !rc; y++) {
         uint8_t *row = raw + (size_t)y * (stride + 1);
-        rc = unfilter(row[0], row + 1, y ? row - stride : NULL, stride, bpp);
+        rc = unfilter(row[0], row + 1, y ? row - stride : zero, stride, bpp);
         uint8_t *dst = out + (size_t)y * stride;
         if (!swap) {
             memcpy(dst, row + 1, stride);
@@ -140,5 +159,6 @@ int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_
         }
     }
     free(raw);
+    free(zero);
     return rc;
 }

@@ -113,6 +113,14 @@ static void check_grid(uint32_t w, uint32_t h, uint32_t ch, uint32_t depth, uint
     int32_t g[32][32];
     struct kiln_err err;
     assert_int_equal(kiln_nearfp_grid(&img, g, &err), KILN_OK);
+    /* The scalar loops give the same grid as the vector one (where this processor has it). */
+    int32_t gv[32][32], gs[32][32];
+    static int64_t cv[3][32][32], cs[3][32][32];
+    assert_int_equal(kiln_nearfp_grid_path(&img, 1, gv, cv, &err), KILN_OK);
+    assert_int_equal(kiln_nearfp_grid_path(&img, 0, gs, cs, &err), KILN_OK);
+    assert_memory_equal(g, gv, sizeof g);
+    assert_memory_equal(g, gs, sizeof g);
+    assert_memory_equal(cv, cs, sizeof cv);
     char raw[256], py[256], cmd[1024];
     snprintf(raw, sizeof raw, "%s/img.raw", scratch_dir());
     snprintf(py, sizeof py, "%s/grid.py", scratch_dir());
@@ -145,6 +153,13 @@ static void test_grid(void **state)
     check_grid(7, 5, 1, 8, 6);      /* smaller than the grid: cells inside one pixel */
     check_grid(1, 1, 3, 8, 7);
     check_grid(200, 3, 1, 16, 8);   /* extreme aspect */
+    check_grid(1601, 9, 3, 8, 9);   /* 8-bit RGB runs of 50 pixels: the vector loop's case */
+    check_grid(700, 4, 1, 16, 10);  /* 16-bit grey, runs of 21 pixels */
+    /* The vector loop divides the weighted sum t = 299r + 587g + 114b + 500 by 1000 as
+     * floor(floor(t / 8) * 33555 / 2^22): equal for every t it can meet. */
+    for (uint32_t t = 0; t <= 255500; t++)
+        if (t / 1000 != ((t >> 3) * 33555) >> 22)
+            fail_msg("the vector loop's division by 1000 is wrong at %u", t);
 }
 
 /* ---- DCT ---------------------------------------------------------------------------------------- */
