@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "checked.h"
+#include "keyed.h"
 
 static const char *const kind_names[KILN_LEAK_KINDS] = {
     "group", "identical-file", "identical-pixels", "identical-record", "near-duplicate"};
@@ -35,35 +36,25 @@ static int add_leak(struct kiln_audit *a, int kind, const uint32_t *items, size_
     return 0;
 }
 
-struct keyed {
-    const void *key;
-    uint32_t index;
-};
-
-static int cmp_digest(const void *x, const void *y)
+/* qsort has no context argument, so relations sort (key, item index) entries. */
+static int cmp_digest(const void *a, const void *b)
 {
-    const struct keyed *a = x, *b = y;
-    int c = memcmp(a->key, b->key, KILN_SHA256_LEN);
-    return c ? c : (a->index > b->index) - (a->index < b->index);
+    return kiln_keyed_order(a, b, KILN_SHA256_LEN);
 }
 
-static int cmp_record(const void *x, const void *y)
+static int cmp_record(const void *a, const void *b)
 {
-    const struct keyed *a = x, *b = y;
-    int c = memcmp(a->key, b->key, KILN_RECORD_DIGEST_LEN);
-    return c ? c : (a->index > b->index) - (a->index < b->index);
+    return kiln_keyed_order(a, b, KILN_RECORD_DIGEST_LEN);
 }
 
-static int cmp_string(const void *x, const void *y)
+static int cmp_string(const void *a, const void *b)
 {
-    const struct keyed *a = x, *b = y;
-    int c = strcmp(a->key, b->key);
-    return c ? c : (a->index > b->index) - (a->index < b->index);
+    return kiln_keyed_order(a, b, 0);
 }
 
 /* Clusters of equal key among split items; a cluster whose items have two splits is a leak. */
 static int equal_key_leaks(const struct kiln_catalog *cat, int kind,
-                           const uint8_t (*record)[KILN_RECORD_DIGEST_LEN], struct keyed *buf,
+                           const uint8_t (*record)[KILN_RECORD_DIGEST_LEN], struct kiln_keyed *buf,
                            uint32_t *tmp, struct kiln_audit *a)
 {
     size_t n = 0;
@@ -72,24 +63,25 @@ static int equal_key_leaks(const struct kiln_catalog *cat, int kind,
         if (it->split == KILN_SPLIT_NONE)
             continue;
         if (kind == KILN_LEAK_GROUP && it->group[0])
-            buf[n++] = (struct keyed){it->group, (uint32_t)i};
+            buf[n++] = kiln_keyed_string(it->group, (uint32_t)i);
         else if (kind == KILN_LEAK_BYTES)
-            buf[n++] = (struct keyed){it->sha256, (uint32_t)i};
+            buf[n++] = kiln_keyed_digest(it->sha256, (uint32_t)i);
         else if (kind == KILN_LEAK_PIXELS && it->has_pixels)
-            buf[n++] = (struct keyed){it->pixel_sha256, (uint32_t)i};
+            buf[n++] = kiln_keyed_digest(it->pixel_sha256, (uint32_t)i);
         else if (kind == KILN_LEAK_RECORD && (record || it->has_record))
-            buf[n++] = (struct keyed){record ? record[i] : it->record_digest, (uint32_t)i};
+            buf[n++] = kiln_keyed_digest(record ? record[i] : it->record_digest, (uint32_t)i);
     }
     int (*cmp)(const void *, const void *) = kind == KILN_LEAK_GROUP    ? cmp_string
                                              : kind == KILN_LEAK_RECORD ? cmp_record
                                                                         : cmp_digest;
-    const size_t len = kind == KILN_LEAK_RECORD ? KILN_RECORD_DIGEST_LEN : KILN_SHA256_LEN;
+    const size_t len = kind == KILN_LEAK_GROUP    ? 0
+                       : kind == KILN_LEAK_RECORD ? KILN_RECORD_DIGEST_LEN
+                                                  : KILN_SHA256_LEN;
     if (n > 1)
         qsort(buf, n, sizeof *buf, cmp);
     for (size_t i = 0; i < n;) {
         size_t j = i + 1;
-        while (j < n && (kind == KILN_LEAK_GROUP ? strcmp(buf[i].key, buf[j].key) == 0
-                                                 : memcmp(buf[i].key, buf[j].key, len) == 0))
+        while (j < n && kiln_keyed_same(&buf[i], &buf[j], len))
             j++;
         bool mixed = false;
         for (size_t k = i + 1; k < j && !mixed; k++)
@@ -133,7 +125,7 @@ int kiln_audit_run(const struct kiln_catalog *cat, const struct kiln_nearlinks *
     out->near_checked = near != NULL;
     if (near)
         out->near_params = near->params;
-    struct keyed *buf = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *buf);
+    struct kiln_keyed *buf = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *buf);
     uint32_t *tmp = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *tmp);
     int rc = KILN_OK;
     if (!buf || !tmp)

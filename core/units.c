@@ -6,33 +6,23 @@
 #include <string.h>
 
 #include "checked.h"
+#include "keyed.h"
 #include "disjoint.h"
 
-/* qsort has no context argument, so relations sort (value pointer, item index) pairs. */
-struct keyed {
-    const void *key;
-    uint32_t index;
-};
-
+/* qsort has no context argument, so relations sort (key, item index) entries. */
 static int cmp_digest(const void *a, const void *b)
 {
-    const struct keyed *x = a, *y = b;
-    int c = memcmp(x->key, y->key, KILN_SHA256_LEN);
-    return c ? c : (x->index > y->index) - (x->index < y->index);
+    return kiln_keyed_order(a, b, KILN_SHA256_LEN);
 }
 
 static int cmp_record(const void *a, const void *b)
 {
-    const struct keyed *x = a, *y = b;
-    int c = memcmp(x->key, y->key, KILN_RECORD_DIGEST_LEN);
-    return c ? c : (x->index > y->index) - (x->index < y->index);
+    return kiln_keyed_order(a, b, KILN_RECORD_DIGEST_LEN);
 }
 
 static int cmp_string(const void *a, const void *b)
 {
-    const struct keyed *x = a, *y = b;
-    int c = strcmp(x->key, y->key);
-    return c ? c : (x->index > y->index) - (x->index < y->index);
+    return kiln_keyed_order(a, b, 0);
 }
 
 static int cmp_u64(const void *a, const void *b)
@@ -43,7 +33,7 @@ static int cmp_u64(const void *a, const void *b)
 
 enum relation { REL_BYTES, REL_PIXELS, REL_GROUP, REL_RECORD };
 
-static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, struct keyed *buf,
+static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, struct kiln_keyed *buf,
                          enum relation rel)
 {
     size_t n = 0;
@@ -52,13 +42,13 @@ static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, str
         if (it->status != KILN_ST_OK)
             continue;
         if (rel == REL_BYTES)
-            buf[n++] = (struct keyed){it->sha256, (uint32_t)i};
+            buf[n++] = kiln_keyed_digest(it->sha256, (uint32_t)i);
         else if (rel == REL_PIXELS && it->has_pixels)
-            buf[n++] = (struct keyed){it->pixel_sha256, (uint32_t)i};
+            buf[n++] = kiln_keyed_digest(it->pixel_sha256, (uint32_t)i);
         else if (rel == REL_GROUP && it->group[0])
-            buf[n++] = (struct keyed){it->group, (uint32_t)i};
+            buf[n++] = kiln_keyed_string(it->group, (uint32_t)i);
         else if (rel == REL_RECORD && it->has_record)
-            buf[n++] = (struct keyed){it->record_digest, (uint32_t)i};
+            buf[n++] = kiln_keyed_digest(it->record_digest, (uint32_t)i);
     }
     int (*cmp)(const void *, const void *) = rel == REL_GROUP    ? cmp_string
                                              : rel == REL_RECORD ? cmp_record
@@ -66,10 +56,10 @@ static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, str
     qsort(buf, n, sizeof *buf, cmp);
     size_t joined = 0;
     for (size_t i = 1; i < n; i++) {
-        bool same = rel == REL_GROUP ? strcmp(buf[i - 1].key, buf[i].key) == 0
-                                     : memcmp(buf[i - 1].key, buf[i].key,
-                                              rel == REL_RECORD ? KILN_RECORD_DIGEST_LEN
-                                                                : KILN_SHA256_LEN) == 0;
+        const size_t len = rel == REL_GROUP    ? 0
+                           : rel == REL_RECORD ? KILN_RECORD_DIGEST_LEN
+                                               : KILN_SHA256_LEN;
+        const bool same = kiln_keyed_same(&buf[i - 1], &buf[i], len);
         if (same && kiln_uf_union(uf, buf[i - 1].index, buf[i].index))
             joined++;
     }
@@ -88,7 +78,7 @@ int kiln_units_exact(const struct kiln_catalog *cat, uint32_t *exact, struct kil
     if (cat->n >= KILN_NO_UNIT)
         return kiln_err_set(err, KILN_ETOOLARGE, "catalogue of %zu rows is too large", cat->n);
     struct kiln_uf uf = {exact};
-    struct keyed *buf = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *buf);
+    struct kiln_keyed *buf = kiln_alloc_array(cat->n ? cat->n : 1, sizeof *buf);
     if (!buf)
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate unit tables for %zu items", cat->n);
     for (size_t i = 0; i < cat->n; i++)
@@ -121,7 +111,7 @@ int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *ex
     if (cat->n >= KILN_NO_UNIT)
         return kiln_err_set(err, KILN_ETOOLARGE, "catalogue of %zu rows is too large", cat->n);
     struct kiln_uf uf = {kiln_alloc_array(cat->n, sizeof(uint32_t))};
-    struct keyed *buf = kiln_alloc_array(cat->n, sizeof *buf);
+    struct kiln_keyed *buf = kiln_alloc_array(cat->n, sizeof *buf);
     out->unit_of = kiln_alloc_array(cat->n, sizeof *out->unit_of);
     if (!uf.parent || !buf || !out->unit_of) {
         free(uf.parent);

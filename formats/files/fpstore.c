@@ -64,14 +64,20 @@ int kiln_fpstore_open(struct kiln_fpstore **out, const char *dir, struct kiln_er
 int kiln_fpstore_put(struct kiln_fpstore *s, const struct kiln_nearfp *fp, uint32_t *slot,
                      struct kiln_err *err)
 {
-    unsigned k = atomic_fetch_add(&s->next, 1u);
-    if (k >= UINT32_MAX - 1)
-        return kiln_err_set(err, KILN_ETOOLARGE, "more than 2^32 - 2 fingerprints");
     uint8_t buf[SLOT];
     kiln_nearfp_encode(fp, buf);
-    *slot = k;
-    const uint8_t *p = buf;
-    size_t len = SLOT;
+    return kiln_fpstore_put_raw(s, buf, 1, slot, err);
+}
+
+int kiln_fpstore_put_raw(struct kiln_fpstore *s, const uint8_t *raw, uint32_t n, uint32_t *first,
+                         struct kiln_err *err)
+{
+    unsigned k = atomic_fetch_add(&s->next, n);
+    if (k >= UINT32_MAX - 1 || n > UINT32_MAX - 1 - k)
+        return kiln_err_set(err, KILN_ETOOLARGE, "more than 2^32 - 2 fingerprints");
+    *first = k;
+    const uint8_t *p = raw;
+    size_t len = (size_t)n * SLOT;
     off_t off = (off_t)((uint64_t)k * SLOT);
     while (len) {
         ssize_t w = pwrite(s->fd, p, len, off);

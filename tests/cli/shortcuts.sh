@@ -2,6 +2,7 @@
 # - two classes where the file format gives the label away (every 'rough' picture a PNG, every
 #   'smooth' one a JPEG): build warns, audit lists a SHORTCUT finding, exit statuses unchanged;
 # - the same pictures with formats mixed within each class: no warning;
+# - kiln report says the same in its summary and attribute section (flagged, or nothing);
 # - the demo set: no warning;
 # - the class x split table printed by build and pack equals manifest.json's counts.
 . "$(dirname "$0")/lib.sh"
@@ -37,12 +38,27 @@ grep -q "^SHORTCUT format: the file format alone predicts the label" "$work/stdo
 expect_exit 0 "$KILN" audit -q "$work/tied.out"
 grep -q "^SHORTCUT format:" "$work/stdout" || fail "audit -q hides the shortcut finding"
 
+# The HTML report (kiln report) carries the same verdict: in its summary and on the attribute.
+expect_exit 0 "$KILN" report "$work/tied.out" -o "$work/tied.html" -q
+grep -q '<li class="bad">shortcut check: 1 attribute predicts the label' "$work/tied.html" ||
+    fail "the report's summary does not flag the shortcut"
+grep -q 'class="bad">shortcut: predicts the label: V 1.00 on train' "$work/tied.html" ||
+    fail "the report's attribute section does not flag format"
+[ "$(grep -c 'class="bad">shortcut: predicts the label' "$work/tied.html")" = 1 ] ||
+    fail "the report flags more than one attribute"
+"$PYTHON" "$KILN_SRC/tests/ref/report_check.py" "$work/tied.html" "$work/tied.out" ||
+    fail "report of the tied set"
+
 expect_exit 0 "$KILN" build "$work/mixed" -o "$work/mixed.out" --seed 3 --size 16
 [ ! -s "$work/stderr" ] || fail "mixed formats warned: $(cat "$work/stderr")"
 grep -q "^shortcut check: no attribute besides the picture predicts the label (strongest: " \
     "$work/stdout" || fail "no shortcut line: $(cat "$work/stdout")"
 expect_exit 0 "$KILN" audit "$work/mixed.out"
 ! grep -q "SHORTCUT" "$work/stdout" || fail "audit flags a shortcut on mixed formats"
+expect_exit 0 "$KILN" report "$work/mixed.out" -o "$work/mixed.html" -q
+grep -q '<li class="ok">shortcut check: no attribute besides the picture predicts' "$work/mixed.html" ||
+    fail "the report's summary of the mixed set"
+! grep -q 'class="bad">shortcut' "$work/mixed.html" || fail "the report flags a shortcut on mixed formats"
 
 # The class x split table of build (split's summary) and pack against manifest.json.
 "$KILN" build "$work/mixed" -o "$work/mixed2" --seed 3 --size 16 --ratios 60:20:20 >"$work/build.txt" 2>&1

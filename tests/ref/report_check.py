@@ -11,10 +11,15 @@ own HTML parser (html.parser), base64 and PIL as the outside references:
   height attributes give (or twice that for small records);
 - the balance table equals manifest.json's counts, class by class and split by split;
 - the summary's records per split equal the manifest's;
+- the statistics table equals the manifest's statistics, split by split and channel by channel
+  (to the 6 significant digits shown), the training statistics marked as such;
+- the run section names kiln's and each library's version, the recipe hash and every output
+  with its size and SHA-256 as the manifest records them;
 - each HOSTILE_NAME (a file or class name holding markup) appears as text, never as markup.
 Exit status 0, or 1 with the reasons printed.
 """
 import base64
+import html
 import html.parser
 import io
 import json
@@ -93,6 +98,70 @@ class Report(html.parser.HTMLParser):
             self.summary.append(data)
 
 
+def section(src, ident):
+    """The HTML of section ident: from its <h2 id=...> to the next <h2."""
+    start = src.find(f'<h2 id="{ident}">')
+    if start < 0:
+        return None
+    end = src.find("<h2", start + 4)
+    return src[start:end if end >= 0 else len(src)]
+
+
+def plain(fragment):
+    return html.unescape(re.sub(r"<[^>]*>", " ", fragment))
+
+
+def check_statistics(src, m, errors):
+    """The statistics table against manifest.json: every split and channel, every value
+    (printed with 6 significant digits)."""
+    sec = section(src, "statistics")
+    if sec is None:
+        errors.append("no statistics section")
+        return
+    rows = {}
+    for tr in re.findall(r"<tr>(.*?)</tr>", sec, re.S):
+        cells = [plain(c).strip() for c in re.findall(r"<td[^>]*>(.*?)</td>", tr, re.S)]
+        if cells:
+            rows[(cells[0].split()[0], int(cells[1]))] = (cells[0], cells[2:])
+    st = m["statistics"]
+    want_rows = 0
+    for split, body in st.items():
+        if not isinstance(body, dict) or "channels" not in body:
+            continue
+        for i, ch in enumerate(body["channels"]):
+            want_rows += 1
+            got = rows.get((split, i))
+            if got is None:
+                errors.append(f"statistics: no row for {split} channel {i}")
+                continue
+            label, vals = got
+            if body.get("used_for_normalisation") and "training statistics" not in label:
+                errors.append(f"statistics: {split} not marked as the training statistics")
+            for k, v in zip(("mean", "std", "min", "max", "mean_unit", "std_unit"), vals):
+                w = ch[k]
+                if abs(float(v) - float(w)) > 1e-5 * max(1.0, abs(float(w))):
+                    errors.append(f"statistics: {split} channel {i} {k} {v} != manifest {w}")
+    if want_rows == 0 or len(rows) != want_rows:
+        errors.append(f"statistics: {len(rows)} rows, manifest has {want_rows}")
+
+
+def check_run(src, m, errors):
+    """The run section names kiln's and every library's version, the recipe hash and every
+    output with its size and SHA-256, as manifest.json records them."""
+    sec = section(src, "run")
+    if sec is None:
+        errors.append("no run section")
+        return
+    text = " ".join(plain(sec).split())
+    want = [f"kiln {m['kiln_version']}", m["recipe_sha256"]]
+    want += [f"{lib} {ver}" for lib, ver in m["libraries"].items()]
+    for o in m["outputs"]:
+        want += [o["name"], str(o["bytes"]), o["sha256"]]
+    for w in want:
+        if str(w) not in text:
+            errors.append(f"run section lacks {w!r}")
+
+
 def main():
     path, outdir, hostile = sys.argv[1], sys.argv[2], sys.argv[3:]
     src = open(path, encoding="utf-8").read()
@@ -145,6 +214,9 @@ def main():
     for s in splits:
         if f"{s} {m['counts'][s]['records']}" not in summary:
             errors.append(f"summary lacks '{s} {m['counts'][s]['records']}': {summary!r}")
+
+    check_statistics(src, m, errors)
+    check_run(src, m, errors)
 
     text = "".join(p.text)
     for name in hostile:
