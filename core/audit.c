@@ -36,22 +36,6 @@ static int add_leak(struct kiln_audit *a, int kind, const uint32_t *items, size_
     return 0;
 }
 
-/* qsort has no context argument, so relations sort (key, item index) entries. */
-static int cmp_digest(const void *a, const void *b)
-{
-    return kiln_keyed_order(a, b, KILN_SHA256_LEN);
-}
-
-static int cmp_record(const void *a, const void *b)
-{
-    return kiln_keyed_order(a, b, KILN_RECORD_DIGEST_LEN);
-}
-
-static int cmp_string(const void *a, const void *b)
-{
-    return kiln_keyed_order(a, b, 0);
-}
-
 /* Clusters of equal key among split items; a cluster whose items have two splits is a leak. */
 static int equal_key_leaks(const struct kiln_catalog *cat, int kind,
                            const uint8_t (*record)[KILN_RECORD_DIGEST_LEN], struct kiln_keyed *buf,
@@ -71,9 +55,9 @@ static int equal_key_leaks(const struct kiln_catalog *cat, int kind,
         else if (kind == KILN_LEAK_RECORD && (record || it->has_record))
             buf[n++] = kiln_keyed_digest(record ? record[i] : it->record_digest, (uint32_t)i);
     }
-    int (*cmp)(const void *, const void *) = kind == KILN_LEAK_GROUP    ? cmp_string
-                                             : kind == KILN_LEAK_RECORD ? cmp_record
-                                                                        : cmp_digest;
+    int (*cmp)(const void *, const void *) = kind == KILN_LEAK_GROUP    ? kiln_keyed_cmp_string
+                                             : kind == KILN_LEAK_RECORD ? kiln_keyed_cmp_record
+                                                                        : kiln_keyed_cmp_sha256;
     const size_t len = kind == KILN_LEAK_GROUP    ? 0
                        : kind == KILN_LEAK_RECORD ? KILN_RECORD_DIGEST_LEN
                                                   : KILN_SHA256_LEN;

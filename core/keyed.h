@@ -8,6 +8,9 @@
 #include <stdint.h>
 #include <string.h>
 
+#include "catalog.h"
+#include "sha256.h"
+
 struct kiln_keyed {
     uint64_t head; /* a digest's first 8 bytes, big-endian; 0 for a string key */
     const void *key;
@@ -34,6 +37,23 @@ static inline int kiln_keyed_order(const struct kiln_keyed *x, const struct kiln
         return x->head < y->head ? -1 : 1;
     int c = n ? memcmp(x->key, y->key, n) : strcmp(x->key, y->key);
     return c ? c : (x->index > y->index) - (x->index < y->index);
+}
+
+/* qsort comparators (qsort has no context argument) for SHA-256 digests, record digests and
+ * strings. */
+static inline int kiln_keyed_cmp_sha256(const void *a, const void *b)
+{
+    return kiln_keyed_order(a, b, KILN_SHA256_LEN);
+}
+
+static inline int kiln_keyed_cmp_record(const void *a, const void *b)
+{
+    return kiln_keyed_order(a, b, KILN_RECORD_DIGEST_LEN);
+}
+
+static inline int kiln_keyed_cmp_string(const void *a, const void *b)
+{
+    return kiln_keyed_order(a, b, 0);
 }
 
 /* Whether two entries have equal keys. */

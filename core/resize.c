@@ -268,7 +268,7 @@ void kiln_resizer_free(struct kiln_resizer *r)
                     for (unsigned c = 0; c < (C); c++)                                             \
                         acc[c] += (A)k[t] * s[c];                                                  \
                 for (unsigned c = 0; c < (C); c++)                                                 \
-                    dst[(size_t)i * (C) + c] = (T)kiln_resize_round(acc[c], maxv);                       \
+                    dst[(size_t)i * (C) + c] = (T)kiln_resize_round(acc[c], maxv);                 \
             }                                                                                      \
         }                                                                                          \
     } while (0)
@@ -344,7 +344,7 @@ static void hpass(struct kiln_resizer *r, const struct kiln_image *in, uint32_t 
             }                                                                                      \
             T *d = (T *)((uint8_t *)out->data + (size_t)i * out->stride);                          \
             for (size_t j = 0; j < n; j++)                                                         \
-                d[j] = (T)kiln_resize_round(a[j], maxv);                                                 \
+                d[j] = (T)kiln_resize_round(a[j], maxv);                                           \
         }                                                                                          \
     } while (0)
 

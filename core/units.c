@@ -9,22 +9,6 @@
 #include "keyed.h"
 #include "disjoint.h"
 
-/* qsort has no context argument, so relations sort (key, item index) entries. */
-static int cmp_digest(const void *a, const void *b)
-{
-    return kiln_keyed_order(a, b, KILN_SHA256_LEN);
-}
-
-static int cmp_record(const void *a, const void *b)
-{
-    return kiln_keyed_order(a, b, KILN_RECORD_DIGEST_LEN);
-}
-
-static int cmp_string(const void *a, const void *b)
-{
-    return kiln_keyed_order(a, b, 0);
-}
-
 static int cmp_u64(const void *a, const void *b)
 {
     uint64_t x = *(const uint64_t *)a, y = *(const uint64_t *)b;
@@ -50,9 +34,9 @@ static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, str
         else if (rel == REL_RECORD && it->has_record)
             buf[n++] = kiln_keyed_digest(it->record_digest, (uint32_t)i);
     }
-    int (*cmp)(const void *, const void *) = rel == REL_GROUP    ? cmp_string
-                                             : rel == REL_RECORD ? cmp_record
-                                                                 : cmp_digest;
+    int (*cmp)(const void *, const void *) = rel == REL_GROUP    ? kiln_keyed_cmp_string
+                                             : rel == REL_RECORD ? kiln_keyed_cmp_record
+                                                                 : kiln_keyed_cmp_sha256;
     qsort(buf, n, sizeof *buf, cmp);
     size_t joined = 0;
     for (size_t i = 1; i < n; i++) {

@@ -608,8 +608,8 @@ static void test_vector_kernels_identical(void **state)
                                 for (uint32_t c = 0; c < ch; c++) {
                                     seed = seed * 6364136223846793005u + 1442695040888963407u;
                                     uint32_t v = (uint32_t)(seed >> 33);
-                                    px_set(&in, x, y, c,
-                                           (x / 3) % 4 == 0 ? ((x & 1) ? maxv : 0) : v % (maxv + 1));
+                                    const uint32_t ext = (x & 1) ? maxv : 0;
+                                    px_set(&in, x, y, c, (x / 3) % 4 == 0 ? ext : v % (maxv + 1));
                                 }
                         /* variant 0: whole image; 1: a box off the origin; 2: a 1/4 grid */
                         struct kiln_grid grid = {variant == 2 ? 4 : 1, 0, 0};
