@@ -43,6 +43,19 @@ int kiln_image_reshape(struct kiln_image *img, uint32_t width, uint32_t height, 
     return KILN_OK;
 }
 
+int kiln_image_reserve(struct kiln_image *img, size_t bytes, struct kiln_err *err)
+{
+    if (bytes > img->cap) {
+        void *p = realloc(img->data, bytes);
+        if (!p)
+            return kiln_err_set(err, KILN_ENOMEM, "cannot allocate %zu bytes for an image",
+                                bytes);
+        img->data = p;
+        img->cap = bytes;
+    }
+    return KILN_OK;
+}
+
 void kiln_image_free(struct kiln_image *img)
 {
     free(img->data);

@@ -20,6 +20,10 @@ struct kiln_image {
  * worker can keep one image across items). Returns KILN_ENOMEM on overflow or failure. */
 int kiln_image_reshape(struct kiln_image *img, uint32_t width, uint32_t height, uint32_t channels,
                        uint32_t depth, struct kiln_err *err);
+/* Makes img's buffer hold at least bytes, keeping its shape and contents, so that a decoder can
+ * use the room past the pixels as scratch space that a worker's image keeps from item to item
+ * (instead of a large allocation per picture). KILN_ENOMEM on failure. */
+int kiln_image_reserve(struct kiln_image *img, size_t bytes, struct kiln_err *err);
 void kiln_image_free(struct kiln_image *img);
 /* Swaps two images' contents (buffers included); used to ping-pong between stages. */
 void kiln_image_swap(struct kiln_image *a, struct kiln_image *b);

@@ -203,7 +203,14 @@ static int png_decode_fn(const uint8_t *data, size_t len, const struct kiln_imag
         !png_get_valid(c.png, c.info, PNG_INFO_tRNS)) {
         const struct kiln_png_layout l = {got.width, got.height, got.channels, got.depth,
                                           (int)want->trusted};
-        const int fast = kiln_png_idat_decode(data, len, &l, out->data, out->stride);
+        /* Room for the inflated rows in out's buffer, which a worker keeps from picture to
+         * picture: no large allocation (and its page faults) per picture. Without it the path
+         * takes a buffer of its own. */
+        struct kiln_err ignored;
+        const size_t room = kiln_png_idat_room(&l);
+        if (room && len <= SIZE_MAX - room)
+            (void)kiln_image_reserve(out, room + len, &ignored);
+        const int fast = kiln_png_idat_decode(data, len, &l, out->data, out->stride, out->cap);
         if (fast <= 0) {
             png_close(&c);
             return fast ? kiln_err_set(err, KILN_ENOMEM, "cannot allocate the PNG image data")

@@ -12,9 +12,10 @@ static uint32_t be32(const uint8_t *p)
 }
 
 /* The run of IDAT chunks: the first one's data (*one, *one_len) when there is only one, else
- * their data concatenated into *joined (malloc'ed). Returns 0, 1 (decline) or -1 (memory). */
+ * their data concatenated into spare when it has room (spare_len bytes), or into *joined
+ * (malloc'ed). Returns 0, 1 (decline) or -1 (memory). */
 static int gather(const uint8_t *d, size_t len, int trusted, const uint8_t **one, size_t *one_len,
-                  uint8_t **joined)
+                  uint8_t *spare, size_t spare_len, uint8_t **joined)
 {
     size_t pos = 8, first = 0, total = 0, count = 0;
     *joined = NULL;
@@ -43,7 +44,7 @@ static int gather(const uint8_t *d, size_t len, int trusted, const uint8_t **one
         *one_len = total;
         return 0;
     }
-    uint8_t *buf = malloc(total ? total : 1);
+    uint8_t *buf = spare && total <= spare_len ? spare : (*joined = malloc(total ? total : 1));
     if (!buf)
         return -1;
     size_t at = 0;
@@ -52,7 +53,7 @@ static int gather(const uint8_t *d, size_t len, int trusted, const uint8_t **one
         memcpy(buf + at, d + pos + 8, n);
         at += n;
     }
-    *one = *joined = buf;
+    *one = buf;
     *one_len = total;
     return 0;
 }
@@ -115,26 +116,51 @@ static int unfilter(uint8_t f, uint8_t *row, const uint8_t *prev, size_t n, size
     }
 }
 
-int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_layout *l,
-                         uint8_t *out, size_t stride)
+static void swap16(uint8_t *p, size_t n)
+{
+    for (size_t i = 0; i < n; i += 2) {
+        const uint8_t t = p[i];
+        p[i] = p[i + 1];
+        p[i + 1] = t;
+    }
+}
+
+size_t kiln_png_idat_room(const struct kiln_png_layout *l)
 {
     const size_t bpp = (size_t)l->channels * (l->depth / 8);
     if ((l->depth != 8 && l->depth != 16) || l->channels < 1 || l->channels > 4 ||
-        stride != (size_t)l->width * bpp || l->height == 0 || l->width == 0 ||
-        (size_t)l->height > KILN_PNG_IDAT_MAX / (stride + 1))
+        l->height == 0 || l->width == 0 || (size_t)l->width > KILN_PNG_IDAT_MAX / bpp)
+        return 0;
+    const size_t stride = (size_t)l->width * bpp;
+    if ((size_t)l->height > KILN_PNG_IDAT_MAX / (stride + 1))
+        return 0;
+    return (size_t)l->height * (stride + 1);
+}
+
+int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_layout *l,
+                         uint8_t *out, size_t stride, size_t cap)
+{
+    const size_t bpp = (size_t)l->channels * (l->depth / 8);
+    const size_t need = kiln_png_idat_room(l);
+    if (need == 0 || stride != (size_t)l->width * bpp)
         return 1;
-    const size_t need = (size_t)l->height * (stride + 1);
+    /* In place when out has the room: row y's filtered bytes sit at y (stride + 1) + 1, at or
+     * past where the unfiltered row goes (y stride), and the row above is already in place;
+     * the IDAT chunks' data, when there are several, are joined in the room past that. */
+    const int in_place = cap >= need;
     const uint8_t *z;
     size_t zlen;
     uint8_t *joined;
-    int rc = gather(data, len, l->trusted, &z, &zlen, &joined);
+    int rc = gather(data, len, l->trusted, &z, &zlen, in_place ? out + need : NULL,
+                    in_place ? cap - need : 0, &joined);
     if (rc)
         return rc;
-    uint8_t *raw = malloc(need);
+    uint8_t *raw = in_place ? out : malloc(need);
     uint8_t *zero = calloc(stride, 1); /* the row above the first (PNG specification 9.2) */
     struct libdeflate_decompressor *dec = raw && zero ? libdeflate_alloc_decompressor() : NULL;
     if (!raw || !zero || !dec) {
-        free(raw);
+        if (!in_place)
+            free(raw);
         free(zero);
         free(joined);
         return -1;
@@ -147,18 +173,18 @@ int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_
     const int swap = l->depth == 16 && *(const uint8_t *)&one == 1;
     for (uint32_t y = 0; y < l->height && !rc; y++) {
         uint8_t *row = raw + (size_t)y * (stride + 1);
-        rc = unfilter(row[0], row + 1, y ? row - stride : zero, stride, bpp);
         uint8_t *dst = out + (size_t)y * stride;
-        if (!swap) {
-            memcpy(dst, row + 1, stride);
-            continue;
-        }
-        for (size_t i = 0; i < stride; i += 2) {
-            dst[i] = row[1 + i + 1];
-            dst[i + 1] = row[1 + i];
-        }
+        rc = unfilter(row[0], row + 1, y ? dst - stride : zero, stride, bpp);
+        memmove(dst, row + 1, stride);
+        /* 16-bit samples to host order one row behind: the row above is unfiltered against
+         * in PNG's byte order. */
+        if (swap && y)
+            swap16(dst - stride, stride);
     }
-    free(raw);
+    if (swap && !rc)
+        swap16(out + (size_t)(l->height - 1) * stride, stride);
+    if (!in_place)
+        free(raw);
     free(zero);
     return rc;
 }
