@@ -205,7 +205,7 @@ static int png_decode_fn(const uint8_t *data, size_t len, const struct kiln_imag
                                           (int)want->trusted};
         /* Room for the inflated rows in out's buffer, which a worker keeps from picture to
          * picture: no large allocation (and its page faults) per picture. Without it the path
-         * takes a buffer of its own. */
+         * declines and libpng decodes. */
         struct kiln_err ignored;
         const size_t room = kiln_png_idat_room(&l);
         if (room && len <= SIZE_MAX - room)

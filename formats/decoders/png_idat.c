@@ -12,13 +12,12 @@ static uint32_t be32(const uint8_t *p)
 }
 
 /* The run of IDAT chunks: the first one's data (*one, *one_len) when there is only one, else
- * their data concatenated into spare when it has room (spare_len bytes), or into *joined
- * (malloc'ed). Returns 0, 1 (decline) or -1 (memory). */
+ * their data concatenated into spare (spare_len bytes; the file's length always suffices).
+ * Returns 0 or 1 (decline). */
 static int gather(const uint8_t *d, size_t len, int trusted, const uint8_t **one, size_t *one_len,
-                  uint8_t *spare, size_t spare_len, uint8_t **joined)
+                  uint8_t *spare, size_t spare_len)
 {
     size_t pos = 8, first = 0, total = 0, count = 0;
-    *joined = NULL;
     for (int seen_end = 0; !seen_end;) {
         if (len - pos < 12)
             return 1;
@@ -44,16 +43,15 @@ static int gather(const uint8_t *d, size_t len, int trusted, const uint8_t **one
         *one_len = total;
         return 0;
     }
-    uint8_t *buf = spare && total <= spare_len ? spare : (*joined = malloc(total ? total : 1));
-    if (!buf)
-        return -1;
+    if (total > spare_len)
+        return 1;
     size_t at = 0;
     for (pos = first; at < total; pos += 12 + (size_t)be32(d + pos)) {
         const uint32_t n = be32(d + pos);
-        memcpy(buf + at, d + pos + 8, n);
+        memcpy(spare + at, d + pos + 8, n);
         at += n;
     }
-    *one = buf;
+    *one = spare;
     *one_len = total;
     return 0;
 }
@@ -142,33 +140,26 @@ int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_
 {
     const size_t bpp = (size_t)l->channels * (l->depth / 8);
     const size_t need = kiln_png_idat_room(l);
-    if (need == 0 || stride != (size_t)l->width * bpp)
+    if (need == 0 || stride != (size_t)l->width * bpp || cap < need)
         return 1;
-    /* In place when out has the room: row y's filtered bytes sit at y (stride + 1) + 1, at or
-     * past where the unfiltered row goes (y stride), and the row above is already in place;
-     * the IDAT chunks' data, when there are several, are joined in the room past that. */
-    const int in_place = cap >= need;
+    /* In place: row y's filtered bytes sit at y (stride + 1) + 1, at or past where the
+     * unfiltered row goes (y stride), and the row above is already in place; the IDAT chunks'
+     * data, when there are several, are joined in the room past that. */
+    uint8_t *const raw = out;
     const uint8_t *z;
     size_t zlen;
-    uint8_t *joined;
-    int rc = gather(data, len, l->trusted, &z, &zlen, in_place ? out + need : NULL,
-                    in_place ? cap - need : 0, &joined);
+    int rc = gather(data, len, l->trusted, &z, &zlen, out + need, cap - need);
     if (rc)
         return rc;
-    uint8_t *raw = in_place ? out : malloc(need);
     uint8_t *zero = calloc(stride, 1); /* the row above the first (PNG specification 9.2) */
-    struct libdeflate_decompressor *dec = raw && zero ? libdeflate_alloc_decompressor() : NULL;
-    if (!raw || !zero || !dec) {
-        if (!in_place)
-            free(raw);
+    struct libdeflate_decompressor *dec = zero ? libdeflate_alloc_decompressor() : NULL;
+    if (!zero || !dec) {
         free(zero);
-        free(joined);
         return -1;
     }
     /* Exactly the rows' size: a stream that is shorter or longer is libpng's to judge. */
     rc = libdeflate_zlib_decompress(dec, z, zlen, raw, need, NULL) == LIBDEFLATE_SUCCESS ? 0 : 1;
     libdeflate_free_decompressor(dec);
-    free(joined);
     const uint16_t one = 1;
     const int swap = l->depth == 16 && *(const uint8_t *)&one == 1;
     for (uint32_t y = 0; y < l->height && !rc; y++) {
@@ -183,8 +174,6 @@ int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_
     }
     if (swap && !rc)
         swap16(out + (size_t)(l->height - 1) * stride, stride);
-    if (!in_place)
-        free(raw);
     free(zero);
     return rc;
 }

@@ -21,17 +21,17 @@ struct kiln_png_layout {
     int trusted;       /* the CRC-32s may be skipped (struct kiln_image_info.trusted) */
 };
 
-/* The bytes of the inflated image data, filter bytes included (height x (stride + 1)): given
- * that much room at out, kiln_png_idat_decode needs no buffer of its own for them, and given
- * as much again as the file's length, none for joining the IDAT chunks either. 0 when the
- * layout is not one this path takes or the data would exceed KILN_PNG_IDAT_MAX. */
+/* The bytes of the inflated image data, filter bytes included (height x (stride + 1)), which
+ * kiln_png_idat_decode needs at out; with as much again as the file's length past them it
+ * joins the IDAT chunks there too. 0 when the layout is not one this path takes or the data
+ * would exceed KILN_PNG_IDAT_MAX. */
 size_t kiln_png_idat_room(const struct kiln_png_layout *l);
 
 /* Decodes the image data of the PNG in data[0..len) into out (height rows of stride bytes,
- * 16-bit samples in host order); cap is the bytes out may be written (at least height x
- * stride): with kiln_png_idat_room's, the data are inflated and unfiltered in place, otherwise
- * in a buffer of their own. Returns 0 when done, 1 when it declines (the caller decodes with
- * libpng), -1 when memory ran out. */
+ * 16-bit samples in host order), inflating and unfiltering in place; cap is the bytes out may
+ * be written, which must be at least kiln_png_idat_room plus room to join the IDAT chunks, or
+ * the path declines. Returns 0 when done, 1 when it declines (the caller decodes with libpng),
+ * -1 when memory ran out. */
 int kiln_png_idat_decode(const uint8_t *data, size_t len, const struct kiln_png_layout *l,
                          uint8_t *out, size_t stride, size_t cap);
 
