@@ -62,7 +62,7 @@ static int equal_key_leaks(const struct kiln_catalog *cat, int kind,
                        : kind == KILN_LEAK_RECORD ? KILN_RECORD_DIGEST_LEN
                                                   : KILN_SHA256_LEN;
     if (n > 1)
-        qsort(buf, n, sizeof *buf, cmp);
+        kiln_keyed_sort(buf, n, cmp);
     for (size_t i = 0; i < n;) {
         size_t j = i + 1;
         while (j < n && kiln_keyed_same(&buf[i], &buf[j], len))

@@ -200,9 +200,12 @@ int kiln_catalog_index_classes(struct kiln_catalog *cat, struct kiln_err *err)
     const char **labels = kiln_alloc_array(cat->n, sizeof *labels);
     if (!labels)
         return kiln_err_set(err, KILN_ENOMEM, "cannot index %zu labels", cat->n);
+    /* Labels come in long runs (items are in location order, labels mostly from folders), so
+     * only a label unlike the one before is collected, and a run's items share one look-up. */
     size_t n = 0;
     for (size_t i = 0; i < cat->n; i++)
-        if (cat->items[i].status == KILN_ST_OK && cat->items[i].label[0])
+        if (cat->items[i].status == KILN_ST_OK && cat->items[i].label[0] &&
+            (n == 0 || strcmp(labels[n - 1], cat->items[i].label) != 0))
             labels[n++] = cat->items[i].label;
     qsort(labels, n, sizeof *labels, str_ptr_cmp);
     size_t u = 0;
@@ -211,14 +214,20 @@ int kiln_catalog_index_classes(struct kiln_catalog *cat, struct kiln_err *err)
             labels[u++] = labels[i];
     cat->classes = (char **)labels;
     cat->nclasses = u;
+    const struct kiln_item *last = NULL; /* the last labelled ok item */
     for (size_t i = 0; i < cat->n; i++) {
         struct kiln_item *it = &cat->items[i];
         it->class_index = -1;
         if (it->status != KILN_ST_OK || !it->label[0])
             continue;
-        const char *key = it->label;
-        const char **hit = bsearch(&key, labels, u, sizeof *labels, str_ptr_cmp);
-        it->class_index = (int32_t)(hit - labels);
+        if (last && strcmp(last->label, it->label) == 0) {
+            it->class_index = last->class_index;
+        } else {
+            const char *key = it->label;
+            const char **hit = bsearch(&key, labels, u, sizeof *labels, str_ptr_cmp);
+            it->class_index = (int32_t)(hit - labels);
+        }
+        last = it;
     }
     return KILN_OK;
 }

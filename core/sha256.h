@@ -14,6 +14,7 @@
 
 struct kiln_sha256 {
     void *evp;   /* EVP_MD_CTX *, opaque to callers */
+    void *md;    /* EVP_MD *, fetched once per context */
     bool failed; /* libcrypto refused an update (or the reset after a digest) */
 };
 
@@ -37,7 +38,19 @@ void kiln_sha256_hex(const uint8_t digest[KILN_SHA256_LEN], char hex[KILN_SHA256
 /* Parses 64 hex digits (either case); returns 0 on success, -1 otherwise. */
 int kiln_sha256_parse(const char *hex, uint8_t digest[KILN_SHA256_LEN]);
 
-/* HMAC-SHA256 (RFC 2104) built on the functions above. */
+/* HMAC-SHA256 (RFC 2104) built on the functions above, under one key for many messages: the
+ * padded key blocks are made once, and one context serves every message. */
+struct kiln_hmac {
+    struct kiln_sha256 sha;
+    uint8_t ipad[64], opad[64];
+};
+int kiln_hmac_init(struct kiln_hmac *h, const void *key, size_t keylen, struct kiln_err *err);
+/* Returns KILN_OK, or KILN_EINTERNAL with err set and out zeroed; h works again afterwards. */
+int kiln_hmac_digest(struct kiln_hmac *h, const void *msg, size_t msglen,
+                     uint8_t out[KILN_SHA256_LEN], struct kiln_err *err)
+    __attribute__((warn_unused_result));
+void kiln_hmac_free(struct kiln_hmac *h);
+/* One message under one key. */
 int kiln_hmac_sha256(const void *key, size_t keylen, const void *msg, size_t msglen,
                      uint8_t out[KILN_SHA256_LEN], struct kiln_err *err);
 #endif

@@ -1,12 +1,14 @@
 /* Unit keys and the exact and stable dealing rules of docs/split.md. */
 #include "split.h"
 
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "checked.h"
 #include "sha256.h"
+#include "sort.h"
 
 static const char *const mode_names[] = {"exact", "stable"};
 
@@ -127,13 +129,20 @@ void kiln_split_format_ratios(const struct kiln_split_params *p, char *buf, size
     }
 }
 
-int kiln_split_unit_key(uint64_t seed, int id_kind, const void *id, size_t idlen, uint64_t *key,
-                        struct kiln_err *err)
+/* The HMAC key for a seed: its 8 bytes, little-endian. */
+static int unit_key_hmac(uint64_t seed, struct kiln_hmac *h, struct kiln_err *err)
 {
-    static const char tag[] = KILN_SPLIT_ALGORITHM;
-    uint8_t seedle[8], mac[KILN_SHA256_LEN];
+    uint8_t seedle[8];
     for (int i = 0; i < 8; i++)
         seedle[i] = (uint8_t)(seed >> (8 * i));
+    return kiln_hmac_init(h, seedle, sizeof seedle, err);
+}
+
+static int unit_key(struct kiln_hmac *h, int id_kind, const void *id, size_t idlen, uint64_t *key,
+                    struct kiln_err *err)
+{
+    static const char tag[] = KILN_SPLIT_ALGORITHM;
+    uint8_t mac[KILN_SHA256_LEN];
     size_t taglen = sizeof tag - 1, msglen;
     if (!kiln_add_size(taglen + 1, idlen, &msglen))
         return kiln_err_set(err, KILN_ENOMEM, "unit id too long");
@@ -144,7 +153,7 @@ int kiln_split_unit_key(uint64_t seed, int id_kind, const void *id, size_t idlen
     memcpy(msg, tag, taglen);
     msg[taglen] = (uint8_t)id_kind;
     memcpy(msg + taglen + 1, id, idlen);
-    int rc = kiln_hmac_sha256(seedle, sizeof seedle, msg, msglen, mac, err);
+    int rc = kiln_hmac_digest(h, msg, msglen, mac, err);
     if (msg != stackbuf)
         free(msg);
     if (rc)
@@ -156,7 +165,20 @@ int kiln_split_unit_key(uint64_t seed, int id_kind, const void *id, size_t idlen
     return KILN_OK;
 }
 
+int kiln_split_unit_key(uint64_t seed, int id_kind, const void *id, size_t idlen, uint64_t *key,
+                        struct kiln_err *err)
+{
+    struct kiln_hmac h;
+    int rc = unit_key_hmac(seed, &h, err);
+    if (rc)
+        return rc;
+    rc = unit_key(&h, id_kind, id, idlen, key, err);
+    kiln_hmac_free(&h);
+    return rc;
+}
+
 struct order_ctx_entry {
+    uint64_t head; /* leads the order: key, or stratum and key's top bits (order_head) */
     int32_t stratum;
     uint64_t key;
     uint32_t unit;
@@ -175,7 +197,18 @@ static int cmp_order(const void *a, const void *b)
     int c = memcmp(x->tie, y->tie, n);
     if (c)
         return c;
-    return (x->tielen > y->tielen) - (x->tielen < y->tielen);
+    c = (x->tielen > y->tielen) - (x->tielen < y->tielen);
+    return c ? c : (x->unit > y->unit) - (x->unit < y->unit);
+}
+
+/* A head that never contradicts cmp_order: the key alone, or (stratum + 1) in the top 16 bits
+ * and the key's top 48 bits below; strata past 2^16 - 2 share one head. */
+static uint64_t order_head(int32_t stratum, uint64_t key, bool stratify)
+{
+    if (!stratify)
+        return key;
+    const uint64_t s = (uint64_t)((int64_t)stratum + 1);
+    return s < 0xffff ? s << 48 | key >> 16 : UINT64_C(0xffff) << 48;
 }
 
 /* Names an item for messages: "source/path[:member]". */
@@ -259,22 +292,32 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
         free(kept);
         return kiln_err_set(err, KILN_ENOMEM, "cannot allocate the split order for %zu units", nu);
     }
+    struct kiln_hmac hmac;
+    int hrc = unit_key_hmac(p->seed, &hmac, err);
+    if (hrc) {
+        free(ord);
+        free(kept);
+        return hrc;
+    }
     for (size_t u = 0; u < nu; u++) {
         struct kiln_unit *un = &units->units[u];
         const struct kiln_item *id = &cat->items[un->id_item];
         const void *bytes = un->id_kind == KILN_UNIT_ID_GROUP ? (const void *)id->group
                                                                : (const void *)id->sha256;
         size_t len = un->id_kind == KILN_UNIT_ID_GROUP ? strlen(id->group) : KILN_SHA256_LEN;
-        int rc = kiln_split_unit_key(p->seed, un->id_kind, bytes, len, &un->key, err);
+        int rc = unit_key(&hmac, un->id_kind, bytes, len, &un->key, err);
         if (rc) {
+            kiln_hmac_free(&hmac);
             free(ord);
             free(kept);
             return rc;
         }
-        ord[u] = (struct order_ctx_entry){p->stratify ? un->stratum : 0, un->key, (uint32_t)u,
-                                          bytes, len};
+        const int32_t stratum = p->stratify ? un->stratum : 0;
+        ord[u] = (struct order_ctx_entry){order_head(stratum, un->key, p->stratify), stratum,
+                                          un->key, (uint32_t)u, bytes, len};
         rep->mixed_units += un->mixed;
     }
+    kiln_hmac_free(&hmac);
     rep->units = nu;
     uint64_t R = 0;
     for (int s = 0; s < KILN_NSPLITS; s++)
@@ -300,7 +343,8 @@ int kiln_split_assign(struct kiln_catalog *cat, struct kiln_units *units,
             }
         }
     } else {
-        qsort(ord, nu, sizeof *ord, cmp_order);
+        kiln_sort_by_head(ord, nu, sizeof *ord, offsetof(struct order_ctx_entry, head),
+                          cmp_order);
         size_t i = 0;
         while (i < nu) {
             size_t j = i;

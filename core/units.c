@@ -37,7 +37,7 @@ static size_t join_equal(const struct kiln_catalog *cat, struct kiln_uf *uf, str
     int (*cmp)(const void *, const void *) = rel == REL_GROUP    ? kiln_keyed_cmp_string
                                              : rel == REL_RECORD ? kiln_keyed_cmp_record
                                                                  : kiln_keyed_cmp_sha256;
-    qsort(buf, n, sizeof *buf, cmp);
+    kiln_keyed_sort(buf, n, cmp);
     size_t joined = 0;
     for (size_t i = 1; i < n; i++) {
         const size_t len = rel == REL_GROUP    ? 0

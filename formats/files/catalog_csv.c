@@ -144,6 +144,20 @@ static const uint8_t *fp_window_get(struct kiln_fpstore *s, struct fp_window *w,
 static int write_rows(FILE *f, const struct kiln_catalog *cat, struct fp_window *w,
                       struct kiln_err *err);
 
+/* A comma and a number in decimal; the rows are written field by field without printf, whose
+ * format parsing was a sixth of the time spent writing a catalogue of 10^6 rows. */
+static void put_sep_u64(FILE *f, uint64_t v)
+{
+    char buf[22];
+    char *p = buf + sizeof buf - 1;
+    *p = '\0';
+    do
+        *--p = (char)('0' + v % 10);
+    while (v /= 10);
+    *--p = ',';
+    fputs(p, f);
+}
+
 int kiln_catalog_csv_write(FILE *f, const struct kiln_catalog *cat, struct kiln_err *err)
 {
     struct fp_window w = {0};
@@ -177,34 +191,58 @@ static int write_rows(FILE *f, const struct kiln_catalog *cat, struct fp_window 
         text_field(f, it->source, 1);
         text_field(f, it->path, 0);
         text_field(f, it->member, 0);
-        fprintf(f, ",%" PRIu64 ",%s,", it->size, it->has_sha || ok ? sha : "");
+        put_sep_u64(f, it->size);
+        putc(',', f);
+        if (it->has_sha || ok)
+            fputs(sha, f);
+        putc(',', f);
         kiln_csv_field(f, it->format, 1);
-        if (img)
-            fprintf(f, ",%u,%u,%u,%u,%u,%u,%u", it->width, it->height, it->channels, it->depth,
-                    it->stored_depth, it->orientation, it->pages);
-        else
+        if (img) {
+            const unsigned head[7] = {it->width,        it->height,      it->channels, it->depth,
+                                      it->stored_depth, it->orientation, it->pages};
+            for (int k = 0; k < 7; k++)
+                put_sep_u64(f, head[k]);
+        } else {
             fputs(",,,,,,,", f);
+        }
         text_field(f, it->notes, 0);
         text_field(f, it->label, 0);
         if (it->class_index >= 0)
-            fprintf(f, ",%" PRId32 ",", it->class_index);
+            put_sep_u64(f, (uint64_t)it->class_index);
         else
-            fputs(",,", f);
+            putc(',', f);
+        putc(',', f);
         text_field(f, it->group, 1);
-        fprintf(f, ",%s,", kiln_status_name(it->status));
+        putc(',', f);
+        fputs(kiln_status_name(it->status), f);
+        putc(',', f);
         text_field(f, it->reason, 1);
-        if (it->has_pixels)
-            fprintf(f, ",%s,%u", psha, it->pixel_scale ? it->pixel_scale : 1u);
-        else
+        if (it->has_pixels) {
+            putc(',', f);
+            fputs(psha, f);
+            put_sep_u64(f, it->pixel_scale ? it->pixel_scale : 1u);
+        } else {
             fputs(",,", f);
+        }
         char rec[2 * KILN_RECORD_DIGEST_LEN + 1] = "";
         if (it->has_record)
             hex_bytes(it->record_digest, KILN_RECORD_DIGEST_LEN, rec);
-        fprintf(f, ",%s", rec);
-        if (it->split >= 0)
-            fprintf(f, ",%016" PRIx64 ",%s", it->unit_key, kiln_split_name(it->split));
-        else
+        putc(',', f);
+        fputs(rec, f);
+        if (it->split >= 0) {
+            uint8_t key[8];
+            char keyhex[17];
+            for (int k = 0; k < 8; k++)
+                key[k] = (uint8_t)(it->unit_key >> (56 - 8 * k));
+            hex_bytes(key, sizeof key, keyhex);
+            putc(',', f);
+            fputs(keyhex, f);
+            putc(',', f);
+            fputs(kiln_split_name(it->split), f);
+        } else {
             fputs(",,", f);
+        }
+        putc(',', f);
         if (it->fp_slot != KILN_FP_NONE) {
             struct kiln_nearfp fp;
             char text[FP_TEXT + 1];
@@ -216,9 +254,7 @@ static int write_rows(FILE *f, const struct kiln_catalog *cat, struct fp_window 
                                     "fingerprint slot %u of the scratch file is damaged",
                                     it->fp_slot);
             fp_to_text(raw, text);
-            fprintf(f, ",%s", text);
-        } else {
-            fputs(",", f);
+            fputs(text, f);
         }
         kiln_csv_end_row(f);
     }

@@ -10,6 +10,7 @@
 #include <string.h>
 
 atomic_size_t fault_malloc_size;
+atomic_size_t fault_malloc_refused;
 const char *_Atomic fault_update_prefix;
 atomic_int fault_final_count;
 atomic_long fault_evp_live;
@@ -38,7 +39,11 @@ void *__wrap_malloc(size_t n);
 void *__wrap_malloc(size_t n)
 {
     size_t armed = atomic_load(&fault_malloc_size);
-    return armed && n == armed ? NULL : __real_malloc(n);
+    if (armed && n == armed) {
+        atomic_fetch_add(&fault_malloc_refused, 1);
+        return NULL;
+    }
+    return __real_malloc(n);
 }
 
 EVP_MD_CTX *__real_EVP_MD_CTX_new(void);

@@ -10,6 +10,8 @@
 
 /* malloc(n) with n == this size returns NULL (0: never). */
 extern atomic_size_t fault_malloc_size;
+/* How many mallocs were refused so far, so that a test can tell its fault was reached. */
+extern atomic_size_t fault_malloc_refused;
 /* EVP_DigestUpdate fails when its data begins with this prefix (NULL: never). */
 extern const char *_Atomic fault_update_prefix;
 /* The next this-many EVP_DigestFinal_ex calls fail. */

@@ -205,6 +205,42 @@ static void test_hmac_rfc4231(void **state)
                "9b09ffa71b942fcb27635fbcd5b0e944bfdc63644f0713938a7f51535c3a35e2");
 }
 
+/* One keyed context for many messages (what split does for 10^6 unit keys) gives the RFC 4231
+ * values of test cases 1 and 2 and keeps giving them, after a refused message too. */
+static void test_hmac_context(void **state)
+{
+    (void)state;
+    struct kiln_err err = {0};
+    struct kiln_hmac h;
+    uint8_t key[20], mac[KILN_SHA256_LEN];
+    char hex[KILN_SHA256_HEX];
+    memset(key, 0x0b, sizeof key);
+    assert_int_equal(kiln_hmac_init(&h, key, sizeof key, &err), KILN_OK);
+    for (int round = 0; round < 3; round++) {
+        assert_int_equal(kiln_hmac_digest(&h, "Hi There", 8, mac, &err), KILN_OK);
+        kiln_sha256_hex(mac, hex);
+        assert_string_equal(hex,
+                            "b0344c61d8db38535ca8afceaf0bf12b881dc200c9833da726e9376c2e32cff7");
+        fault_update_prefix = "Hi There";
+        memset(mac, 0xee, sizeof mac);
+        assert_int_equal(kiln_hmac_digest(&h, "Hi There", 8, mac, &err), KILN_EINTERNAL);
+        fault_reset();
+        for (int i = 0; i < KILN_SHA256_LEN; i++)
+            assert_int_equal(mac[i], 0);
+    }
+    kiln_hmac_free(&h);
+    assert_int_equal(kiln_hmac_init(&h, "Jefe", 4, &err), KILN_OK);
+    for (int round = 0; round < 2; round++) {
+        const char *msg = "what do ya want for nothing?";
+        assert_int_equal(kiln_hmac_digest(&h, msg, strlen(msg), mac, &err), KILN_OK);
+        kiln_sha256_hex(mac, hex);
+        assert_string_equal(hex,
+                            "5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843");
+    }
+    kiln_hmac_free(&h);
+    assert_int_equal(fault_evp_live, 0);
+}
+
 /* Keys of exactly 64 bytes are used as is and 65 bytes are hashed (RFC 2104 section 2); both
  * boundary values computed with Python's hmac module: hmac.new(b'\x01'*64, b'abc', sha256). */
 static void test_hmac_key_boundary(void **state)
@@ -265,6 +301,7 @@ int main(void)
         cmocka_unit_test(test_chunked_updates),   cmocka_unit_test(test_hex_round_trip),
         cmocka_unit_test(test_hex_rejects),       cmocka_unit_test(test_hmac_rfc4231),
         cmocka_unit_test(test_hmac_key_boundary), cmocka_unit_test(test_libcrypto_refusals),
+        cmocka_unit_test(test_hmac_context),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
