@@ -213,8 +213,10 @@ static void rgb8_sums_scalar(const uint8_t *line, uint32_t x0, uint32_t x1, uint
 
 #if defined(__x86_64__) || defined(__i386__)
 /* The same eight pixels at a time. The division by 1000 is floor(floor(t / 8) * 33555 / 2^22),
- * equal for every t up to 255 500 (checked exhaustively by test_grid in test_nearfp.c); the
- * 32-bit lane sums cannot wrap: a cell's run is under 2^27 pixels, 2^24 per lane, x 255. */
+ * equal for every t up to 255 500 (checked exhaustively by test_grid in test_nearfp.c); t / 8
+ * fits 15 bits, so the product's top 16 bits come from one 16-bit multiply (the lane's high
+ * half is zero). The weighted sum 299 r + 587 g + 114 b is two multiply-adds of 16-bit pairs
+ * ((r, g) and (b, 0)), cheaper than three 32-bit multiplies. */
 __attribute__((target("avx2"))) static void rgb8_sums_avx2(const uint8_t *line, uint32_t x0,
                                                            uint32_t x1, uint64_t s[4])
 {
@@ -223,30 +225,35 @@ __attribute__((target("avx2"))) static void rgb8_sums_avx2(const uint8_t *line, 
                                         0, -1, -1, -1, 3, -1, -1, -1, 6, -1, -1, -1, 9, -1, -1, -1);
     const __m256i mg = _mm256_add_epi8(mr, _mm256_set1_epi32(1));
     const __m256i mb = _mm256_add_epi8(mr, _mm256_set1_epi32(2));
-    __m256i al = _mm256_setzero_si256(), ar = al, ag = al, ab = al;
+    const __m256i wrg = _mm256_set1_epi32(587 << 16 | 299), wb = _mm256_set1_epi32(114);
+    const __m256i half = _mm256_set1_epi32(500), inv = _mm256_set1_epi32(33555);
     uint32_t x = x0;
     /* 32 bytes are read for 24: stop while 11 pixels remain inside [x0, x1). */
-    for (; (uint64_t)x + 11 <= x1; x += 8) {
-        __m256i v = _mm256_loadu_si256((const __m256i *)(line + (size_t)3 * x));
-        v = _mm256_permutevar8x32_epi32(v, spread); /* pixels 4-7 to the high lane */
-        const __m256i r = _mm256_shuffle_epi8(v, mr), g = _mm256_shuffle_epi8(v, mg),
-                      b = _mm256_shuffle_epi8(v, mb);
-        __m256i t = _mm256_add_epi32(_mm256_mullo_epi32(r, _mm256_set1_epi32(299)),
-                                     _mm256_mullo_epi32(g, _mm256_set1_epi32(587)));
-        t = _mm256_add_epi32(t, _mm256_mullo_epi32(b, _mm256_set1_epi32(114)));
-        t = _mm256_srli_epi32(_mm256_add_epi32(t, _mm256_set1_epi32(500)), 3);
-        t = _mm256_srli_epi32(_mm256_mullo_epi32(t, _mm256_set1_epi32(33555)), 22);
-        al = _mm256_add_epi32(al, t);
-        ar = _mm256_add_epi32(ar, r);
-        ag = _mm256_add_epi32(ag, g);
-        ab = _mm256_add_epi32(ab, b);
-    }
-    const __m256i acc[4] = {al, ar, ag, ab};
-    for (int k = 0; k < 4; k++) {
-        uint32_t lane[8];
-        _mm256_storeu_si256((__m256i *)lane, acc[k]);
-        for (int j = 0; j < 8; j++)
-            s[k] += lane[j];
+    while ((uint64_t)x + 11 <= x1) {
+        /* At most 2^24 pixels a round, so that a round's totals (255 * 2^24) fit 32 bits. */
+        const uint64_t stop = (uint64_t)x + (UINT32_C(1) << 24);
+        __m256i al = _mm256_setzero_si256(), ar = al, ag = al, ab = al;
+        for (; (uint64_t)x + 11 <= x1 && x < stop; x += 8) {
+            __m256i v = _mm256_loadu_si256((const __m256i *)(line + (size_t)3 * x));
+            v = _mm256_permutevar8x32_epi32(v, spread); /* pixels 4-7 to the high lane */
+            const __m256i r = _mm256_shuffle_epi8(v, mr), g = _mm256_shuffle_epi8(v, mg),
+                          b = _mm256_shuffle_epi8(v, mb);
+            __m256i t = _mm256_madd_epi16(_mm256_or_si256(r, _mm256_slli_epi32(g, 16)), wrg);
+            t = _mm256_add_epi32(_mm256_add_epi32(t, _mm256_madd_epi16(b, wb)), half);
+            t = _mm256_srli_epi32(_mm256_mulhi_epu16(_mm256_srli_epi32(t, 3), inv), 6);
+            al = _mm256_add_epi32(al, t);
+            ar = _mm256_add_epi32(ar, r);
+            ag = _mm256_add_epi32(ag, g);
+            ab = _mm256_add_epi32(ab, b);
+        }
+        /* The four totals across the lanes by vector adds (a cell is a few dozen pixels, so
+         * this step costs as much as the loop when done lane by lane). */
+        const __m256i h = _mm256_hadd_epi32(_mm256_hadd_epi32(al, ar), _mm256_hadd_epi32(ag, ab));
+        uint32_t tot[4];
+        _mm_storeu_si128((__m128i *)tot, _mm_add_epi32(_mm256_castsi256_si128(h),
+                                                       _mm256_extracti128_si256(h, 1)));
+        for (int k = 0; k < 4; k++)
+            s[k] += tot[k];
     }
     rgb8_sums_scalar(line, x, x1, s);
 }

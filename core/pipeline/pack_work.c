@@ -212,7 +212,8 @@ static int run_workers(struct pack_run *run, struct kiln_err *err)
     unsigned jobs = o->jobs ? o->jobs : 1;
     struct pack_worker *w = calloc(jobs, sizeof *w);
     pthread_t *tid = calloc(jobs, sizeof *tid);
-    int rc = kiln_queue_init(&run->q, 1024, o->queue_bytes ? o->queue_bytes : KILN_QUEUE_BYTES_DEFAULT, err);
+    const size_t qbytes = o->queue_bytes ? o->queue_bytes : kiln_queue_bytes_for(jobs);
+    int rc = kiln_queue_init(&run->q, 1024, qbytes, err);
     if (rc || !w || !tid) {
         free(w);
         free(tid);

@@ -19,7 +19,7 @@ struct kiln_pack_opts {
     struct kiln_recipe recipe; /* finished (kiln_recipe_finish) */
     const char *outdir;
     unsigned jobs;
-    size_t queue_bytes;
+    size_t queue_bytes; /* file bytes waiting for the workers; 0: kiln_queue_bytes_for(jobs) */
     /* The records of how the catalogue was made (catalog.json), copied into the manifest with
      * their names in output form; NULL: unknown (null). The split record's parts decide
      * whether val.kten is written. */

@@ -35,7 +35,6 @@ void kiln_scan_opts_defaults(struct kiln_scan_opts *o)
     o->limits.max_pixels = 1ull << 28;
     o->limits.max_side = 65535;
     o->jobs = 1;
-    o->queue_bytes = KILN_QUEUE_BYTES_DEFAULT;
 }
 
 /* ---- label CSV ---------------------------------------------------------------------------- */
@@ -665,7 +664,8 @@ int kiln_stage_scan(const char *const *sources, size_t nsources, const struct ki
         }
     }
     unsigned jobs = o->jobs ? o->jobs : 1;
-    rc = kiln_queue_init(&run.q, 4096, o->queue_bytes, err);
+    rc = kiln_queue_init(&run.q, 4096,
+                         o->queue_bytes ? o->queue_bytes : kiln_queue_bytes_for(jobs), err);
     if (rc) {
         label_table_free(&run.labels);
         if (run.have_re)

@@ -24,7 +24,7 @@ struct kiln_scan_opts {
     struct kiln_walk_opts walk;
     struct kiln_decode_limits limits;
     unsigned jobs;
-    size_t queue_bytes; /* bytes of file data in flight between reader and workers */
+    size_t queue_bytes; /* file bytes waiting for the workers; 0: kiln_queue_bytes_for(jobs) */
     kiln_progress_fn progress;
     void *progress_ctx;
     /* kiln build: prepare each usable item's record from the scan's one decode, at the scale
