@@ -13,7 +13,7 @@ int kiln_sha256_init(struct kiln_sha256 *ctx, struct kiln_err *err)
      * every initialisation, which cost a split of 10^6 units more than the digests did. */
     EVP_MD *md = EVP_MD_fetch(NULL, "SHA256", NULL);
     if (!md)
-        return kiln_err_set(err, KILN_EINTERNAL, "libcrypto has no SHA-256 implementation");
+        return kiln_err_set(err, KILN_EINTERNAL, "cannot fetch SHA-256 from libcrypto");
     EVP_MD_CTX *c = EVP_MD_CTX_new();
     if (!c) {
         EVP_MD_free(md);
@@ -104,6 +104,7 @@ int kiln_hmac_init(struct kiln_hmac *h, const void *key, size_t keylen, struct k
 {
     uint8_t k[64] = {0};
     int rc;
+    h->sha = (struct kiln_sha256){NULL, NULL, false}; /* nothing to free after a failure */
     if (keylen > 64) {
         rc = kiln_sha256_buf(key, keylen, k, err);
         if (rc)

@@ -44,7 +44,9 @@ struct kiln_hmac {
     struct kiln_sha256 sha;
     uint8_t ipad[64], opad[64];
 };
-int kiln_hmac_init(struct kiln_hmac *h, const void *key, size_t keylen, struct kiln_err *err);
+/* Returns KILN_OK, or KILN_ENOMEM/KILN_EINTERNAL with err set and nothing to free. */
+int kiln_hmac_init(struct kiln_hmac *h, const void *key, size_t keylen, struct kiln_err *err)
+    __attribute__((warn_unused_result));
 /* Returns KILN_OK, or KILN_EINTERNAL with err set and out zeroed; h works again afterwards. */
 int kiln_hmac_digest(struct kiln_hmac *h, const void *msg, size_t msglen,
                      uint8_t out[KILN_SHA256_LEN], struct kiln_err *err)

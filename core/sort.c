@@ -32,10 +32,13 @@ void kiln_sort_by_head(void *base, size_t n, size_t size, size_t off,
                        int (*cmp)(const void *, const void *))
 {
     unsigned char *b = base;
-    if (n < 2)
+    if (n < MIN_RECORDS) {
+        if (n > 1)
+            qsort(base, n, size, cmp);
         return;
+    }
     uint64_t lo = UINT64_MAX, hi = 0;
-    for (size_t i = 0; n >= MIN_RECORDS && i < n; i++) {
+    for (size_t i = 0; i < n; i++) {
         const uint64_t h = head_at(b + i * size, off);
         lo = h < lo ? h : lo;
         hi = h > hi ? h : hi;
@@ -46,7 +49,7 @@ void kiln_sort_by_head(void *base, size_t n, size_t size, size_t off,
     const int bits = lo < hi ? 64 - __builtin_clzll(hi - lo) : 0;
     const int shift = bits > BUCKET_BITS ? bits - BUCKET_BITS : 0;
     const size_t nb = lo < hi ? (size_t)((hi - lo) >> shift) + 1 : 0;
-    if (n < MIN_RECORDS || lo == hi || !(end = calloc(nb + 1, sizeof *end)) ||
+    if (lo == hi || !(end = calloc(nb + 1, sizeof *end)) ||
         !(next = malloc(nb * sizeof *next)) || !(tmp = malloc(size))) {
         free(end);
         free(next);

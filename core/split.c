@@ -202,7 +202,7 @@ static int cmp_order(const void *a, const void *b)
 }
 
 /* A head that never contradicts cmp_order: the key alone, or (stratum + 1) in the top 16 bits
- * and the key's top 48 bits below; strata past 2^16 - 2 share one head. */
+ * and the key's top 48 bits below; strata from 2^16 - 2 on share one head. */
 static uint64_t order_head(int32_t stratum, uint64_t key, bool stratify)
 {
     if (!stratify)

@@ -159,7 +159,7 @@ int kiln_units_build(const struct kiln_catalog *cat, const struct kiln_pairs *ex
         out->units[u].id_kind =
             cat->items[out->units[u].id_item].group[0] ? KILN_UNIT_ID_GROUP : KILN_UNIT_ID_CONTENT;
     /* Most frequent class per unit, ties to the smallest class index (unlabelled smallest). */
-    qsort(pairs, npairs, sizeof *pairs, cmp_u64);
+    kiln_sort_by_head(pairs, npairs, sizeof *pairs, 0, cmp_u64); /* equal pairs are equal bytes */
     size_t i = 0;
     while (i < npairs) {
         uint32_t u = (uint32_t)(pairs[i] >> 32);

@@ -2,7 +2,6 @@
 #include "catalog_csv.h"
 
 #include <errno.h>
-#include <inttypes.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -198,10 +197,10 @@ static int write_rows(FILE *f, const struct kiln_catalog *cat, struct fp_window 
         putc(',', f);
         kiln_csv_field(f, it->format, 1);
         if (img) {
-            const unsigned head[7] = {it->width,        it->height,      it->channels, it->depth,
+            const unsigned dims[7] = {it->width,        it->height,      it->channels, it->depth,
                                       it->stored_depth, it->orientation, it->pages};
             for (int k = 0; k < 7; k++)
-                put_sep_u64(f, head[k]);
+                put_sep_u64(f, dims[k]);
         } else {
             fputs(",,,,,,,", f);
         }

@@ -15,6 +15,7 @@ const char *_Atomic fault_update_prefix;
 atomic_int fault_final_count;
 atomic_long fault_evp_live;
 atomic_long fault_mutex_live;
+atomic_long fault_md_live;
 
 void fault_reset(void)
 {
@@ -63,6 +64,25 @@ void __wrap_EVP_MD_CTX_free(EVP_MD_CTX *c)
     if (c)
         atomic_fetch_sub(&fault_evp_live, 1);
     __real_EVP_MD_CTX_free(c);
+}
+
+EVP_MD *__real_EVP_MD_fetch(OSSL_LIB_CTX *lib, const char *name, const char *props);
+EVP_MD *__wrap_EVP_MD_fetch(OSSL_LIB_CTX *lib, const char *name, const char *props);
+EVP_MD *__wrap_EVP_MD_fetch(OSSL_LIB_CTX *lib, const char *name, const char *props)
+{
+    EVP_MD *md = __real_EVP_MD_fetch(lib, name, props);
+    if (md)
+        atomic_fetch_add(&fault_md_live, 1);
+    return md;
+}
+
+void __real_EVP_MD_free(EVP_MD *md);
+void __wrap_EVP_MD_free(EVP_MD *md);
+void __wrap_EVP_MD_free(EVP_MD *md)
+{
+    if (md)
+        atomic_fetch_sub(&fault_md_live, 1);
+    __real_EVP_MD_free(md);
 }
 
 int __real_EVP_DigestUpdate(EVP_MD_CTX *c, const void *d, size_t n);

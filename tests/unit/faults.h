@@ -19,6 +19,8 @@ extern atomic_int fault_final_count;
 
 /* Live libcrypto digest contexts (EVP_MD_CTX_new minus EVP_MD_CTX_free of non-NULL). */
 extern atomic_long fault_evp_live;
+/* Live fetched digest methods (EVP_MD_fetch minus EVP_MD_free of non-NULL). */
+extern atomic_long fault_md_live;
 /* Live mutexes (successful pthread_mutex_init minus pthread_mutex_destroy). */
 extern atomic_long fault_mutex_live;
 

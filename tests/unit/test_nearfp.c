@@ -140,6 +140,36 @@ static void check_grid(uint32_t w, uint32_t h, uint32_t ch, uint32_t depth, uint
     kiln_image_free(&img);
 }
 
+/* The vector and scalar cell sums agree on 8-bit RGB with the extremes the vector arithmetic
+ * must carry (t = 299r + 587g + 114b + 500 up to 255 500: all 255; all 0; full-range noise),
+ * at widths whose runs have every remainder of the 8-pixel step; no Python needed. */
+static void test_grid_vector_extremes(void **state)
+{
+    (void)state;
+    static const uint32_t widths[] = {32, 300, 333, 1601, 4099};
+    for (int fill = 0; fill < 3; fill++)
+        for (size_t k = 0; k < sizeof widths / sizeof widths[0]; k++) {
+            struct kiln_image img = {0};
+            struct kiln_err err;
+            const uint32_t w = widths[k], h = 35;
+            assert_int_equal(kiln_image_reshape(&img, w, h, 3, 8, &err), KILN_OK);
+            uint64_t s = 77 + k;
+            for (size_t i = 0; i < (size_t)w * h * 3; i++)
+                ((uint8_t *)img.data)[i] = fill == 0   ? 255
+                                           : fill == 1 ? 0
+                                                       : (uint8_t)splitmix64(&s);
+            int32_t gv[32][32], gs[32][32];
+            static int64_t cv[3][32][32], cs[3][32][32];
+            assert_int_equal(kiln_nearfp_grid_path(&img, 1, gv, cv, &err), KILN_OK);
+            assert_int_equal(kiln_nearfp_grid_path(&img, 0, gs, cs, &err), KILN_OK);
+            assert_memory_equal(gv, gs, sizeof gv);
+            assert_memory_equal(cv, cs, sizeof cv);
+            if (fill == 0) /* white: every cell at the top of the 16-bit scale, x 16 */
+                assert_int_equal(gs[31][31], 16 * 65535);
+            kiln_image_free(&img);
+        }
+}
+
 static void test_grid(void **state)
 {
     (void)state;
@@ -524,7 +554,7 @@ static void test_errors(void **state)
 int main(void)
 {
     const struct CMUnitTest tests[] = {
-        cmocka_unit_test(test_grid),          cmocka_unit_test(test_dct),
+        cmocka_unit_test(test_grid),          cmocka_unit_test(test_grid_vector_extremes),          cmocka_unit_test(test_dct),
         cmocka_unit_test(test_orientation),   cmocka_unit_test(test_correlation),
         cmocka_unit_test(test_real_picture),  cmocka_unit_test(test_low_information),
         cmocka_unit_test(test_errors),

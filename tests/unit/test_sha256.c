@@ -239,6 +239,7 @@ static void test_hmac_context(void **state)
     }
     kiln_hmac_free(&h);
     assert_int_equal(fault_evp_live, 0);
+    assert_int_equal(fault_md_live, 0);
 }
 
 /* Keys of exactly 64 bytes are used as is and 65 bytes are hashed (RFC 2104 section 2); both
@@ -292,6 +293,7 @@ static void test_libcrypto_refusals(void **state)
     assert_int_equal(kiln_hmac_sha256(key, sizeof key, "Hi There", 8, d, &err), KILN_EINTERNAL);
     fault_reset();
     assert_int_equal(fault_evp_live, 0);
+    assert_int_equal(fault_md_live, 0);
 }
 
 int main(void)
