@@ -20,11 +20,11 @@ struct kiln_queue {
 };
 
 /* File bytes waiting between a reader and its workers, unless a stage is told otherwise: 1 MiB
- * per worker, at least 2 MiB and at most 64 MiB. The reader is always a file ahead (it reads the next file while
- * one waits) and from the page cache it reads far faster than the decoders consume, so a deeper
- * queue bought no speed on the benchmark set, warm or cold, while every MiB of it is resident
- * (16 MiB before: build's peak RSS 46 -> 31 MiB; docs/performance.md). A file larger than the
- * budget is still admitted into an empty queue. */
+ * per worker, at least 2 MiB and at most 64 MiB. The reader is always a file ahead (it reads
+ * the next file while one waits) and from the page cache it reads far faster than the decoders
+ * consume, so a deeper queue bought no speed on the benchmark set, warm or cold, while every
+ * MiB of it is resident (16 MiB before: build's peak RSS 46 -> 31 MiB; docs/performance.md).
+ * A file larger than the budget is still admitted into an empty queue. */
 static inline size_t kiln_queue_bytes_for(unsigned jobs)
 {
     const size_t mib = (size_t)1 << 20;

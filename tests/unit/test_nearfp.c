@@ -106,21 +106,28 @@ static const char grid_py[] =
     "g = (s * scale + (w * h) // 2) // (w * h)\n"
     "print(' '.join(str(int(v)) for v in g.ravel()))\n";
 
+/* The scalar loops give the same grid and colour grid as the vector one (where this processor
+ * has it); the scalar grid into gs. */
+static void paths_agree(const struct kiln_image *img, int32_t gs[32][32])
+{
+    struct kiln_err err;
+    int32_t gv[32][32];
+    static int64_t cv[3][32][32], cs[3][32][32];
+    assert_int_equal(kiln_nearfp_grid_path(img, 1, gv, cv, &err), KILN_OK);
+    assert_int_equal(kiln_nearfp_grid_path(img, 0, gs, cs, &err), KILN_OK);
+    assert_memory_equal(gv, gs, sizeof gv);
+    assert_memory_equal(cv, cs, sizeof cv);
+}
+
 static void check_grid(uint32_t w, uint32_t h, uint32_t ch, uint32_t depth, uint64_t seed)
 {
     struct kiln_image img = {0};
     make_image(&img, w, h, ch, depth, seed);
-    int32_t g[32][32];
+    int32_t g[32][32], gs[32][32];
     struct kiln_err err;
     assert_int_equal(kiln_nearfp_grid(&img, g, &err), KILN_OK);
-    /* The scalar loops give the same grid as the vector one (where this processor has it). */
-    int32_t gv[32][32], gs[32][32];
-    static int64_t cv[3][32][32], cs[3][32][32];
-    assert_int_equal(kiln_nearfp_grid_path(&img, 1, gv, cv, &err), KILN_OK);
-    assert_int_equal(kiln_nearfp_grid_path(&img, 0, gs, cs, &err), KILN_OK);
-    assert_memory_equal(g, gv, sizeof g);
+    paths_agree(&img, gs);
     assert_memory_equal(g, gs, sizeof g);
-    assert_memory_equal(cv, cs, sizeof cv);
     char raw[256], py[256], cmd[1024];
     snprintf(raw, sizeof raw, "%s/img.raw", scratch_dir());
     snprintf(py, sizeof py, "%s/grid.py", scratch_dir());
@@ -158,12 +165,8 @@ static void test_grid_vector_extremes(void **state)
                 ((uint8_t *)img.data)[i] = fill == 0   ? 255
                                            : fill == 1 ? 0
                                                        : (uint8_t)splitmix64(&s);
-            int32_t gv[32][32], gs[32][32];
-            static int64_t cv[3][32][32], cs[3][32][32];
-            assert_int_equal(kiln_nearfp_grid_path(&img, 1, gv, cv, &err), KILN_OK);
-            assert_int_equal(kiln_nearfp_grid_path(&img, 0, gs, cs, &err), KILN_OK);
-            assert_memory_equal(gv, gs, sizeof gv);
-            assert_memory_equal(cv, cs, sizeof cv);
+            int32_t gs[32][32];
+            paths_agree(&img, gs);
             if (fill == 0) /* white: every cell at the top of the 16-bit scale, x 16 */
                 assert_int_equal(gs[31][31], 16 * 65535);
             kiln_image_free(&img);
